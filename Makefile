@@ -1,0 +1,97 @@
+# vibrogate -- build, test and install.
+#
+#   make            build build/vibrogate
+#   make demo       install missing Debian packages, run the demo scenario
+#   make check      install missing Debian packages, build, run every test
+#   make install    PREFIX=/usr/local DESTDIR= (binary and man page)
+#
+# The user's CFLAGS, CPPFLAGS and LDFLAGS are respected; OPENMP=0 builds
+# without OpenMP; WERROR=1 (set automatically when CI=true) adds -Werror.
+
+VERSION    := 0.1.0
+PREFIX     ?= /usr/local
+BINDIR     ?= $(PREFIX)/bin
+MANDIR     ?= $(PREFIX)/share/man
+DESTDIR    ?=
+PKG_CONFIG ?= pkg-config
+PYTHON     ?= /usr/bin/python3
+OPENMP     ?= 1
+CFLAGS     ?= -O2 -g
+
+ifeq ($(CI),true)
+WERROR ?= 1
+endif
+
+PKGS      := gsl inih netcdf
+WARN      := -Wall -Wextra -Wshadow -Wconversion -Wstrict-prototypes
+ifeq ($(WERROR),1)
+WARN      += -Werror
+endif
+ifeq ($(OPENMP),1)
+OMPFLAGS  := -fopenmp
+endif
+
+# Recursive (=) so that pkg-config runs after the deps step has installed it.
+PKG_CFLAGS = $(shell $(PKG_CONFIG) --cflags $(PKGS))
+PKG_LIBS   = $(shell $(PKG_CONFIG) --libs $(PKGS))
+ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
+             -DVG_VERSION='"$(VERSION)"' -DVG_INIH_VERSION='"$(shell $(PKG_CONFIG) --modversion inih)"' $(CPPFLAGS) $(CFLAGS)
+ALL_LIBS   = $(PKG_LIBS) -lm
+
+B         := build
+SRC       := $(wildcard src/*.c)
+LIB_SRC   := $(filter-out src/main.c,$(SRC))
+LIB_OBJ   := $(LIB_SRC:src/%.c=$(B)/obj/%.o)
+MAIN_OBJ  := $(B)/obj/main.o
+TEST_SRC  := $(wildcard tests/test_*.c)
+TEST_BIN  := $(TEST_SRC:tests/%.c=$(B)/tests/%)
+TOOL_SRC  := $(wildcard tests/tools/*.c)
+TOOL_BIN  := $(TOOL_SRC:tests/tools/%.c=$(B)/tests/%)
+
+.PHONY: all deps demo check test-run install uninstall clean
+
+all: $(B)/vibrogate
+
+$(B)/obj/%.o: src/%.c $(wildcard include/*.h src/*.h) | $(B)/obj
+	$(CC) $(ALL_CFLAGS) -c $< -o $@
+
+$(B)/libvibrogate.a: $(LIB_OBJ)
+	$(AR) rcs $@ $^
+
+$(B)/vibrogate: $(MAIN_OBJ) $(B)/libvibrogate.a
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(ALL_LIBS)
+
+$(B)/tests/test_%: tests/test_%.c $(B)/libvibrogate.a | $(B)/tests
+	$(CC) $(ALL_CFLAGS) $(shell $(PKG_CONFIG) --cflags cmocka) $(LDFLAGS) -o $@ $< \
+	    $(B)/libvibrogate.a $(shell $(PKG_CONFIG) --libs cmocka) $(ALL_LIBS)
+
+$(B)/tests/%: tests/tools/%.c $(B)/libvibrogate.a | $(B)/tests
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
+
+$(B)/obj $(B)/tests:
+	mkdir -p $@
+
+deps:
+	@sh src/deps.sh
+
+demo: deps
+	@$(MAKE) --no-print-directory all
+	./$(B)/vibrogate sweep configs/demo.ini --out $(B)/demo
+	@echo "demo outputs: $(B)/demo/ (sweep.nc, sweep.csv)"
+
+check: deps
+	@$(MAKE) --no-print-directory test-run
+
+test-run: $(B)/vibrogate $(TEST_BIN) $(TOOL_BIN)
+	@PYTHON=$(PYTHON) sh tests/run.sh $(B)
+
+install: $(B)/vibrogate
+	install -d $(DESTDIR)$(BINDIR) $(DESTDIR)$(MANDIR)/man1
+	install -m 755 $(B)/vibrogate $(DESTDIR)$(BINDIR)/vibrogate
+	install -m 644 docs/vibrogate.1 $(DESTDIR)$(MANDIR)/man1/vibrogate.1
+
+uninstall:
+	rm -f $(DESTDIR)$(BINDIR)/vibrogate $(DESTDIR)$(MANDIR)/man1/vibrogate.1
+
+clean:
+	rm -rf $(B)

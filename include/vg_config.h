@@ -1,0 +1,79 @@
+/*
+ * The validated run configuration, in canonical units, and the parser that
+ * builds it from an INI file (libinih) plus command-line overrides.
+ *
+ * Called by main/commands; everything downstream (grid, sweep, writers) reads
+ * only this structure.  Grammar, keys and messages: docs/config.md.
+ */
+#ifndef VG_CONFIG_H
+#define VG_CONFIG_H
+
+#include <stddef.h>
+#include "vg_status.h"
+#include "vg_rate.h"
+#include "vg_metrics.h"
+
+/* The six parameters, in CSV column order. */
+typedef enum {
+    VG_P_GAP = 0,      /* epsilon = E_D - E_A, meV */
+    VG_P_REORG,        /* lambda, meV */
+    VG_P_COUPLING,     /* V, meV */
+    VG_P_HUANG_RHYS,   /* S, dimensionless */
+    VG_P_MODE,         /* hbar*omega, meV */
+    VG_P_TEMPERATURE,  /* T, K */
+    VG_NPARAM
+} vg_param_id;
+
+typedef struct {
+    const char *key;        /* config key, also the NetCDF dimension name */
+    const char *unit;       /* canonical unit: "meV", "K" or "1" */
+    const char *csv_column; /* "gap_meV", ..., "huang_rhys", "temperature_K" */
+    const char *long_name;  /* CF long_name */
+    const char *symbol;     /* plain-text symbol for listings */
+} vg_param_info;
+
+const vg_param_info *vg_param_get(vg_param_id id);
+
+/* One parameter: a scalar (n == 1) or an axis (n > 1). */
+typedef struct {
+    size_t n;            /* number of values, >= 1 */
+    double *v;           /* n values in canonical units (owned) */
+    int log_spacing;     /* 1 if given as a log range */
+    char user_unit[16];  /* the unit as the user wrote it ("cm-1", "eV", ...), "" if none */
+    int line;            /* config line it came from; 0 = default, -1 = --set */
+    int defaulted;       /* 1 if the built-in default was used */
+} vg_param;
+
+typedef enum { VG_FMT_NETCDF = 1u, VG_FMT_CSV = 2u } vg_data_format;
+
+typedef struct {
+    char *path;               /* config file path as given (owned) */
+    char *text;               /* full config file text (owned) */
+    char *overrides;          /* "--set" lines joined by '\n', or NULL (owned) */
+    char *title;              /* [scenario] title, "" if absent (owned) */
+    char *notes;              /* [scenario] notes, "" if absent (owned) */
+    vg_param param[VG_NPARAM];
+    vg_mode_statistics stats; /* [model] mode_statistics */
+    double tolerance;         /* [model] truncation tolerance, default 1e-12 */
+    char *out_dir;            /* [output] directory (owned) */
+    unsigned formats;         /* VG_FMT_* bits, default both */
+    int metric_on[VG_N_METRICS]; /* which metrics to store (default all) */
+    double max_bytes;         /* [output] max_size in bytes */
+} vg_config;
+
+/* Parse path, apply the nset overrides "section.key=value" in order, and
+ * validate.  On failure err->msg is "FILE:LINE: what is wrong ..." (or
+ * "--set section.key: ..." for overrides) and cfg is left freed. */
+vg_status vg_config_load(vg_config *cfg, const char *path,
+                         size_t nset, const char *const *sets, vg_error *err);
+
+void vg_config_free(vg_config *cfg);
+
+/* Parse one value of the grammar ("120 meV", "1600, 2100 cm-1",
+ * "0 .. 600 meV, 241 points", "0.001 .. 1, 31 points, log") for parameter id.
+ * Fills p (allocating p->v).  err->msg describes the problem without a
+ * location prefix.  Exposed for tests and fuzzing. */
+vg_status vg_config_parse_value(vg_param_id id, const char *text, vg_param *p,
+                                vg_error *err);
+
+#endif

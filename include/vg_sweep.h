@@ -1,0 +1,41 @@
+/*
+ * The sweep engine: computes every metric at every point of a grid, chunk
+ * by chunk.  A chunk is a block of consecutive flat indices computed in
+ * parallel (OpenMP, when built with it) and then handed, in order, to a
+ * sink (the writers).  Each point is computed independently by the same
+ * deterministic code, so results are bit-identical at any thread count.
+ *
+ * Called by the sweep command.
+ */
+#ifndef VG_SWEEP_H
+#define VG_SWEEP_H
+
+#include <signal.h>
+#include <stddef.h>
+#include "vg_grid.h"
+#include "vg_status.h"
+
+/* Receives points start .. start+count-1, metrics row-major
+ * (count x VG_N_METRICS).  A non-OK status stops the sweep. */
+typedef vg_status (*vg_sweep_sink)(void *ctx, size_t start, size_t count,
+                                   const double *metrics, vg_error *err);
+
+typedef struct {
+    int threads;                     /* 0: the OpenMP default */
+    size_t chunk;                    /* points per chunk; 0: VG_SWEEP_CHUNK */
+    int progress;                    /* 1: a progress line on stderr */
+    volatile sig_atomic_t *stop;     /* checked between chunks; may be NULL */
+} vg_sweep_opts;
+
+#define VG_SWEEP_CHUNK ((size_t)1 << 16)
+
+/* Run the whole grid.  Returns VG_OK, the sink's status, VG_ENUMERIC from
+ * the kernel (the first failing point in index order), VG_ENOMEM, or
+ * VG_EINTR when *stop became non-zero. */
+vg_status vg_sweep_run(const vg_grid *g, const vg_sweep_opts *opts,
+                       vg_sweep_sink sink, void *ctx, vg_error *err);
+
+/* Threads the sweep will use for opts (1 without OpenMP). */
+int vg_sweep_threads(const vg_sweep_opts *opts);
+
+#endif

@@ -1,0 +1,37 @@
+/*
+ * The commands behind main: each takes the parsed command line and returns a
+ * status (the exit status) with the message in err.  Private to the program.
+ */
+#ifndef VG_CMD_H
+#define VG_CMD_H
+
+#include <signal.h>
+#include <stddef.h>
+#include "vg_status.h"
+
+typedef struct {
+    const char *config;        /* CONFIG argument */
+    const char *out_dir;       /* --out, or NULL */
+    int threads;               /* --threads, 0 = default */
+    int quiet;                 /* --quiet */
+    int json;                  /* --json (point) */
+    size_t nset;               /* --set KEY=VALUE, in order */
+    const char **sets;
+    const char *history;       /* time stamp and command line */
+    volatile sig_atomic_t *stop; /* set by SIGINT/SIGTERM */
+} vg_cmd_args;
+
+vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err);
+vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err);
+vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err);
+
+/* "3.21e-400" from a log10 value, without under- or overflow. */
+void vg_fmt_log10(double l10, char *buf, size_t len);
+
+/* A time constant 1/k from log10 k: "3.21 ns", "1.2e+03 s", ... */
+void vg_fmt_time(double log10_k, char *buf, size_t len);
+
+/* "12.3 MB" */
+void vg_fmt_bytes(double bytes, char *buf, size_t len);
+
+#endif

@@ -1,0 +1,80 @@
+/*
+ * The check command: validate a config and print what a sweep would do --
+ * the resolved parameters in canonical units, the grid shape, the number of
+ * points and the expected output size -- without computing or writing.
+ */
+#include <stdio.h>
+
+#include "cmd.h"
+#include "vg_config.h"
+#include "vg_grid.h"
+
+static void print_param(const vg_config *cfg, vg_param_id p)
+{
+    const vg_param *q = &cfg->param[p];
+    const vg_param_info *info = vg_param_get(p);
+    char src[64];
+
+    if (q->defaulted)
+        snprintf(src, sizeof src, "default");
+    else if (q->line < 0)
+        snprintf(src, sizeof src, "--set");
+    else
+        snprintf(src, sizeof src, "line %d", q->line);
+    if (q->n == 1)
+        printf("  %-20s %-6s %.10g %s", info->key, "scalar", q->v[0], info->unit);
+    else
+        printf("  %-20s %-6s %zu values, %.10g .. %.10g %s%s", info->key, "axis", q->n,
+               q->v[0], q->v[q->n - 1], info->unit, q->log_spacing ? " (log spacing)" : "");
+    if (q->user_unit[0] && q->user_unit[0] != info->unit[0])
+        printf(" (given in %s)", q->user_unit);
+    printf("  [%s]\n", src);
+}
+
+static void print_grid(const vg_grid *g)
+{
+    printf("grid: %zu axis%s", g->naxes, g->naxes == 1 ? "" : "es");
+    for (size_t k = 0; k < g->naxes; k++)
+        printf("%s%s %zu", k ? " x " : ": ", vg_param_get(g->axis[k])->key, g->dim[k]);
+    printf(" (last varies fastest), %zu point%s\n", g->npoints, g->npoints == 1 ? "" : "s");
+}
+
+static void print_output(const vg_cmd_args *a, const vg_config *cfg)
+{
+    char est[32], lim[32];
+    int k = 0;
+
+    vg_fmt_bytes(vg_grid_output_bytes(cfg), est, sizeof est);
+    vg_fmt_bytes(cfg->max_bytes, lim, sizeof lim);
+    printf("output: directory '%s', data%s%s\n", a->out_dir ? a->out_dir : cfg->out_dir,
+           cfg->formats & VG_FMT_NETCDF ? " sweep.nc" : "",
+           cfg->formats & VG_FMT_CSV ? " sweep.csv" : "");
+    printf("metrics:");
+    for (int m = 0; m < VG_N_METRICS; m++)
+        if (cfg->metric_on[m])
+            printf("%s %s", k++ ? "," : "", vg_metric_get((vg_metric_id)m)->name);
+    printf("\nexpected output size: at most %s (limit %s)\n", est, lim);
+}
+
+vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err)
+{
+    vg_config cfg;
+    vg_grid g;
+    vg_status st = vg_config_load(&cfg, a->config, a->nset, a->sets, err);
+
+    if (st != VG_OK)
+        return st;
+    vg_grid_init(&g, &cfg);
+    printf("config: %s: valid\n", cfg.path);
+    if (cfg.title[0])
+        printf("title: %s\n", cfg.title);
+    printf("parameters (canonical units):\n");
+    for (int p = 0; p < VG_NPARAM; p++)
+        print_param(&cfg, (vg_param_id)p);
+    printf("model: mode_statistics = %s, tolerance = %g\n",
+           cfg.stats == VG_STATS_FROZEN ? "frozen" : "thermal", cfg.tolerance);
+    print_grid(&g);
+    print_output(a, &cfg);
+    vg_config_free(&cfg);
+    return VG_OK;
+}

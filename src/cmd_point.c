@@ -1,0 +1,189 @@
+/*
+ * The point command: one operating point, every parameter scalar.  Lists the
+ * significant vibronic channels (weight, resonance gap, rate, time constant,
+ * share of the total) and all metrics, as a table or as JSON.
+ */
+#include <math.h>
+#include <stdio.h>
+
+#include "cmd.h"
+#include "vg_config.h"
+#include "vg_const.h"
+#include "vg_metrics.h"
+
+/* Channels listed: n = 0 always, others carrying at least this share of
+ * the total rate. */
+#define SHARE_MIN 1e-6
+
+typedef struct {
+    double v[VG_NPARAM];
+    vg_rate_mode mode;
+    vg_rates r;
+    double metric[VG_N_METRICS];
+} point_result;
+
+static vg_status require_scalars(const vg_config *cfg, vg_error *err)
+{
+    for (int p = 0; p < VG_NPARAM; p++)
+        if (cfg->param[p].n > 1)
+            return vg_error_set(err, VG_ECONFIG,
+                                "%s: 'point' needs every parameter scalar; '%s' has %zu values "
+                                "(fix it with --set 'parameters.%s=VALUE')",
+                                cfg->path, vg_param_get((vg_param_id)p)->key,
+                                cfg->param[p].n, vg_param_get((vg_param_id)p)->key);
+    return VG_OK;
+}
+
+static vg_status compute(const vg_config *cfg, point_result *pr, vg_error *err)
+{
+    vg_status st;
+
+    for (int p = 0; p < VG_NPARAM; p++)
+        pr->v[p] = cfg->param[p].v[0];
+    st = vg_rate_mode_init(&pr->mode, cfg->stats, pr->v[VG_P_HUANG_RHYS], pr->v[VG_P_MODE],
+                           pr->v[VG_P_TEMPERATURE], err);
+    if (st == VG_OK)
+        st = vg_rate_eval(&pr->mode, pr->v[VG_P_GAP], pr->v[VG_P_REORG],
+                          pr->v[VG_P_COUPLING], cfg->tolerance, &pr->r, err);
+    if (st == VG_OK)
+        vg_metrics_from_rates(&pr->r, pr->metric);
+    return st;
+}
+
+/* log10 of channel n's share of the total, from the V-free parts. */
+static double log10_share(point_result *pr, long n)
+{
+    double ln_kn = vg_rate_ln_channel(&pr->mode, pr->v[VG_P_GAP], pr->v[VG_P_REORG], 1.0, n);
+    double ln_k1 = vg_rate_ln_channel(&pr->mode, pr->v[VG_P_GAP], pr->v[VG_P_REORG], 1.0, 0);
+
+    /* ln_fc_* exclude the prefactor; channel values at V = 1 meV include it,
+     * so compare against the elastic channel computed the same way. */
+    return (ln_kn - ln_k1 + pr->r.ln_fc_elastic - pr->r.ln_fc_total) / VG_LN10;
+}
+
+static int listed(point_result *pr, long n)
+{
+    return n == 0 || log10_share(pr, n) >= log10(SHARE_MIN);
+}
+
+static void print_text_channel(point_result *pr, long n)
+{
+    double lnk = vg_rate_ln_channel(&pr->mode, pr->v[VG_P_GAP], pr->v[VG_P_REORG],
+                                    pr->v[VG_P_COUPLING], n);
+    double lw = vg_rate_ln_weight(&pr->mode, n) / VG_LN10;
+    char w[32], k[32], tau[32];
+
+    vg_fmt_log10(lw, w, sizeof w);
+    if (pr->r.coupling_zero) {
+        snprintf(k, sizeof k, "0");
+        snprintf(tau, sizeof tau, "never");
+    } else {
+        vg_fmt_log10(lnk / VG_LN10, k, sizeof k);
+        vg_fmt_time(lnk / VG_LN10, tau, sizeof tau);
+    }
+    printf("  %6ld  %-11s %12.3f  %-11s  %-11s  %.3e\n", n, w,
+           pr->v[VG_P_REORG] + (double)n * pr->v[VG_P_MODE], k, tau,
+           pow(10.0, log10_share(pr, n)));
+}
+
+static void print_text(const vg_config *cfg, point_result *pr)
+{
+    printf("operating point (%s):\n", cfg->path);
+    for (int p = 0; p < VG_NPARAM; p++)
+        printf("  %-20s %.10g %s%s\n", vg_param_get((vg_param_id)p)->key, pr->v[p],
+               vg_param_get((vg_param_id)p)->unit, cfg->param[p].defaulted ? "  (default)" : "");
+    printf("  mode statistics      %s\n\n", cfg->stats == VG_STATS_FROZEN ? "frozen" : "thermal");
+    printf("channels (n > 0: quanta given to the mode; n < 0: taken from it;\n"
+           "listed: n = 0 and every channel with at least %.0e of the total)\n", SHARE_MIN);
+    printf("  %6s  %-11s %12s  %-11s  %-11s  %s\n", "n", "weight W_n", "resonance/meV",
+           "rate/s^-1", "time const", "share of total");
+    for (long n = pr->r.n_lo; n <= pr->r.n_hi; n++)
+        if (listed(pr, n))
+            print_text_channel(pr, n);
+    if (pr->r.n_lo > 0 || pr->r.n_hi < 0)
+        print_text_channel(pr, 0);
+    printf("\nmetrics\n");
+    for (int m = 0; m < VG_N_METRICS; m++) {
+        const vg_metric_info *mi = vg_metric_get((vg_metric_id)m);
+        if (pr->metric[m] == VG_FILL)
+            printf("  %-20s undefined (a rate is exactly zero)\n", mi->name);
+        else
+            printf("  %-20s %.10g\n", mi->name, pr->metric[m]);
+    }
+    printf("\nmodel prediction (golden rule, harmonic mode, classical environment)\n");
+}
+
+static void json_number(double v)
+{
+    if (v == VG_FILL || !isfinite(v))
+        fputs("null", stdout);
+    else
+        printf("%.17g", v);
+}
+
+static void print_json_channel(point_result *pr, long n, int first)
+{
+    double lnk = vg_rate_ln_channel(&pr->mode, pr->v[VG_P_GAP], pr->v[VG_P_REORG],
+                                    pr->v[VG_P_COUPLING], n);
+
+    printf("%s\n    {\"n\": %ld, \"log10_weight\": ", first ? "" : ",", n);
+    json_number(vg_rate_ln_weight(&pr->mode, n) / VG_LN10);
+    printf(", \"resonance_gap_meV\": ");
+    json_number(pr->v[VG_P_REORG] + (double)n * pr->v[VG_P_MODE]);
+    printf(", \"log10_rate\": ");
+    json_number(pr->r.coupling_zero ? VG_FILL : lnk / VG_LN10);
+    printf(", \"share\": ");
+    json_number(pow(10.0, log10_share(pr, n)));
+    printf("}");
+}
+
+static void print_json(const vg_config *cfg, point_result *pr)
+{
+    int first = 1;
+
+    printf("{\n  \"config\": \"%s\",\n  \"parameters\": {", cfg->path);
+    for (int p = 0; p < VG_NPARAM; p++) {
+        printf("%s\"%s\": ", p ? ", " : "", vg_param_get((vg_param_id)p)->csv_column);
+        json_number(pr->v[p]);
+    }
+    printf("},\n  \"defaults\": [");
+    for (int p = 0, k = 0; p < VG_NPARAM; p++)
+        if (cfg->param[p].defaulted)
+            printf("%s\"%s\"", k++ ? ", " : "", vg_param_get((vg_param_id)p)->key);
+    printf("],\n  \"mode_statistics\": \"%s\",\n  \"channels\": [",
+           cfg->stats == VG_STATS_FROZEN ? "frozen" : "thermal");
+    for (long n = pr->r.n_lo; n <= pr->r.n_hi; n++)
+        if (listed(pr, n)) {
+            print_json_channel(pr, n, first);
+            first = 0;
+        }
+    if (pr->r.n_lo > 0 || pr->r.n_hi < 0)
+        print_json_channel(pr, 0, first);
+    printf("\n  ],\n  \"metrics\": {");
+    for (int m = 0; m < VG_N_METRICS; m++) {
+        printf("%s\"%s\": ", m ? ", " : "", vg_metric_get((vg_metric_id)m)->name);
+        json_number(pr->metric[m]);
+    }
+    printf("}\n}\n");
+}
+
+vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err)
+{
+    vg_config cfg;
+    point_result pr;
+    vg_status st = vg_config_load(&cfg, a->config, a->nset, a->sets, err);
+
+    if (st != VG_OK)
+        return st;
+    st = require_scalars(&cfg, err);
+    if (st == VG_OK)
+        st = compute(&cfg, &pr, err);
+    if (st == VG_OK) {
+        if (a->json)
+            print_json(&cfg, &pr);
+        else
+            print_text(&cfg, &pr);
+    }
+    vg_config_free(&cfg);
+    return st;
+}

@@ -1,0 +1,51 @@
+/*
+ * Number formatting for the text listings of the point and check commands.
+ * Rates span hundreds of orders of magnitude, so they are printed from their
+ * log10 and never pass through a double that could under- or overflow.
+ */
+#include <math.h>
+#include <stdio.h>
+
+#include "cmd.h"
+
+void vg_fmt_log10(double l10, char *buf, size_t len)
+{
+    double e = floor(l10);
+    double m = pow(10.0, l10 - e);
+
+    if (m >= 9.9995) { /* would print as 10.000 */
+        m /= 10.0;
+        e += 1.0;
+    }
+    snprintf(buf, len, "%.3fe%+04.0f", m, e);
+}
+
+void vg_fmt_time(double log10_k, char *buf, size_t len)
+{
+    static const struct { const char *unit; double log10_s; } u[] = {
+        {"fs", -15}, {"ps", -12}, {"ns", -9}, {"us", -6}, {"ms", -3}, {"s", 0}};
+    double lt = -log10_k; /* log10 of tau in s */
+    int i;
+
+    for (i = 5; i > 0 && lt < u[i].log10_s; i--)
+        ;
+    if (lt < -15.0 || lt >= 3.0) {
+        char m[32];
+        vg_fmt_log10(lt, m, sizeof m);
+        snprintf(buf, len, "%s s", m);
+        return;
+    }
+    snprintf(buf, len, "%.3g %s", pow(10.0, lt - u[i].log10_s), u[i].unit);
+}
+
+void vg_fmt_bytes(double bytes, char *buf, size_t len)
+{
+    static const char *unit[] = {"bytes", "kB", "MB", "GB", "TB", "PB", "EB"};
+    int i = 0;
+
+    while (bytes >= 1000.0 && i < 6) {
+        bytes /= 1000.0;
+        i++;
+    }
+    snprintf(buf, len, i == 0 ? "%.0f %s" : "%.3g %s", bytes, unit[i]);
+}

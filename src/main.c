@@ -1,0 +1,197 @@
+/*
+ * vibrogate: command-line entry point.  Parses arguments, dispatches to a
+ * command (src/cmd_*.c) and maps its status to the exit status.
+ */
+#include <getopt.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_version.h>
+#include <netcdf.h>
+
+#include "cmd.h"
+
+#ifndef VG_INIH_VERSION
+#define VG_INIH_VERSION "unknown"
+#endif
+
+static volatile sig_atomic_t stop_flag;
+
+static void on_signal(int sig)
+{
+    (void)sig;
+    stop_flag = 1;
+}
+
+static void usage(FILE *f)
+{
+    fputs("Usage: vibrogate COMMAND CONFIG [OPTION]...\n"
+          "Map where vibrationally assisted electron transfer outruns the elastic\n"
+          "channel, over a grid of receptor and odorant parameters.\n"
+          "\n"
+          "Commands:\n"
+          "  sweep CONFIG   compute every grid point; write sweep.nc and/or sweep.csv\n"
+          "  point CONFIG   one operating point (all parameters scalar): channels, metrics\n"
+          "  check CONFIG   validate; print resolved parameters, grid shape and output size\n"
+          "\n"
+          "Options:\n"
+          "  -o, --out DIR          output directory (overrides [output] directory)\n"
+          "  -j, --threads N        threads for the sweep (default: all cores)\n"
+          "  -s, --set KEY=VALUE    override a config value, e.g.\n"
+          "                         --set 'parameters.gap=150 meV' (repeatable)\n"
+          "  -q, --quiet            no progress line\n"
+          "      --json             point: print JSON instead of a table\n"
+          "  -h, --help             show this help and exit\n"
+          "  -V, --version          show version information and exit\n"
+          "\n"
+          "Exit status: 0 success, 1 numerical failure, 2 usage error, 3 config error,\n"
+          "4 output could not be written, 5 out of memory, 6 interrupted.\n"
+          "Results are model predictions (golden rule, harmonic mode, classical\n"
+          "environment), not measurements.  Full documentation: man vibrogate.\n",
+          f);
+}
+
+static void version(void)
+{
+    printf("vibrogate %s\n", VG_VERSION);
+    printf("GSL %s, NetCDF %.40s, inih %s", gsl_version, nc_inq_libvers(), VG_INIH_VERSION);
+#ifdef _OPENMP
+    printf(", OpenMP %d", _OPENMP);
+#endif
+    printf("\nCopyright (C) 2026 the vibrogate developers.\n"
+           "License GPLv3+: GNU GPL version 3 or later <https://gnu.org/licenses/gpl.html>.\n"
+           "This is free software: you are free to change and redistribute it.\n"
+           "There is NO WARRANTY, to the extent permitted by law.\n");
+}
+
+/* "2026-12-01T20:00:00Z vibrogate sweep demo.ini ..." (SOURCE_DATE_EPOCH
+ * replaces the clock, for reproducible files). */
+static char *history_line(int argc, char **argv)
+{
+    const char *sde = getenv("SOURCE_DATE_EPOCH");
+    time_t t = sde ? (time_t)strtoll(sde, NULL, 10) : time(NULL);
+    struct tm tm;
+    size_t len = 32;
+    char *h;
+    int i;
+
+    for (i = 0; i < argc; i++)
+        len += strlen(argv[i]) + 1;
+    h = malloc(len);
+    if (!h)
+        return NULL;
+    gmtime_r(&t, &tm);
+    strftime(h, 32, "%Y-%m-%dT%H:%M:%SZ", &tm);
+    for (i = 0; i < argc; i++) {
+        strcat(h, " ");
+        strcat(h, i == 0 ? "vibrogate" : argv[i]);
+    }
+    return h;
+}
+
+static int parse_threads(const char *s, int *out)
+{
+    char *end;
+    long v = strtol(s, &end, 10);
+
+    if (*s == '\0' || *end != '\0' || v < 1 || v > 4096)
+        return -1;
+    *out = (int)v;
+    return 0;
+}
+
+typedef vg_status (*command_fn)(const vg_cmd_args *, vg_error *);
+
+static command_fn find_command(const char *name)
+{
+    if (strcmp(name, "sweep") == 0)
+        return vg_cmd_sweep;
+    if (strcmp(name, "point") == 0)
+        return vg_cmd_point;
+    if (strcmp(name, "check") == 0)
+        return vg_cmd_check;
+    return NULL;
+}
+
+static int usage_error(const char *fmt, const char *what)
+{
+    fputs("vibrogate: ", stderr);
+    fprintf(stderr, fmt, what);
+    fputs("\nTry 'vibrogate --help' for more information.\n", stderr);
+    return VG_EUSAGE;
+}
+
+static int parse_options(int argc, char **argv, vg_cmd_args *a)
+{
+    static const struct option opts[] = {
+        {"out", required_argument, NULL, 'o'},  {"threads", required_argument, NULL, 'j'},
+        {"set", required_argument, NULL, 's'},  {"quiet", no_argument, NULL, 'q'},
+        {"json", no_argument, NULL, 'J'},       {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},    {NULL, 0, NULL, 0}};
+    int c;
+
+    opterr = 0;
+    while ((c = getopt_long(argc, argv, ":o:j:s:qhV", opts, NULL)) != -1) {
+        switch (c) {
+        case 'o': a->out_dir = optarg; break;
+        case 'j':
+            if (parse_threads(optarg, &a->threads) != 0)
+                return usage_error("'--threads' must be a whole number from 1 to 4096 (got '%s')",
+                                   optarg);
+            break;
+        case 's': a->sets[a->nset++] = optarg; break;
+        case 'q': a->quiet = 1; break;
+        case 'J': a->json = 1; break;
+        case 'h': usage(stdout); exit(0);
+        case 'V': version(); exit(0);
+        case ':': return usage_error("option '%s' needs a value", argv[optind - 1]);
+        default: return usage_error("unknown option '%s'", argv[optind - 1]);
+        }
+    }
+    return 0;
+}
+
+int main(int argc, char **argv)
+{
+    vg_cmd_args a = {0};
+    vg_error err = {VG_OK, ""};
+    command_fn cmd;
+    int rc;
+
+    gsl_set_error_handler_off();
+    a.sets = calloc((size_t)argc + 1, sizeof *a.sets);
+    if (!a.sets)
+        return VG_ENOMEM;
+    rc = parse_options(argc, argv, &a);
+    if (rc != 0)
+        goto out;
+    if (optind >= argc) {
+        rc = usage_error("%s", "missing command (sweep, point or check)");
+        goto out;
+    }
+    cmd = find_command(argv[optind]);
+    if (!cmd) {
+        rc = usage_error("unknown command '%s' (expected sweep, point or check)", argv[optind]);
+        goto out;
+    }
+    if (optind + 2 != argc) {
+        rc = usage_error("'%s' takes exactly one CONFIG file", argv[optind]);
+        goto out;
+    }
+    a.config = argv[optind + 1];
+    a.history = history_line(argc, argv);
+    a.stop = &stop_flag;
+    signal(SIGINT, on_signal);
+    signal(SIGTERM, on_signal);
+    rc = (int)cmd(&a, &err);
+    if (rc != VG_OK)
+        fprintf(stderr, "vibrogate: %s\n", err.msg);
+    free((char *)a.history);
+out:
+    free(a.sets);
+    return rc;
+}
