@@ -4,6 +4,7 @@
  * points and the expected output size -- without computing or writing.
  */
 #include <stdio.h>
+#include <string.h>
 
 #include "cmd.h"
 #include "vg_config.h"
@@ -21,11 +22,13 @@ static void print_param(const vg_config *cfg, vg_param_id p)
         snprintf(src, sizeof src, "--set");
     else
         snprintf(src, sizeof src, "line %d", q->line);
+    const char *unit = strcmp(info->unit, "1") == 0 ? "" : info->unit;
+
     if (q->n == 1)
-        printf("  %-20s %-6s %.10g %s", info->key, "scalar", q->v[0], info->unit);
+        printf("  %-20s %-6s %.10g %s", info->key, "scalar", q->v[0], unit);
     else
         printf("  %-20s %-6s %zu values, %.10g .. %.10g %s%s", info->key, "axis", q->n,
-               q->v[0], q->v[q->n - 1], info->unit, q->log_spacing ? " (log spacing)" : "");
+               q->v[0], q->v[q->n - 1], unit, q->log_spacing ? " (log spacing)" : "");
     if (q->user_unit[0] && q->user_unit[0] != info->unit[0])
         printf(" (given in %s)", q->user_unit);
     printf("  [%s]\n", src);
@@ -33,7 +36,7 @@ static void print_param(const vg_config *cfg, vg_param_id p)
 
 static void print_grid(const vg_grid *g)
 {
-    printf("grid: %zu axis%s", g->naxes, g->naxes == 1 ? "" : "es");
+    printf("grid: %zu ax%s", g->naxes, g->naxes == 1 ? "is" : "es");
     for (size_t k = 0; k < g->naxes; k++)
         printf("%s%s %zu", k ? " x " : ": ", vg_param_get(g->axis[k])->key, g->dim[k]);
     printf(" (last varies fastest), %zu point%s\n", g->npoints, g->npoints == 1 ? "" : "s");

@@ -5,6 +5,7 @@
  */
 #include <math.h>
 #include <stdio.h>
+#include <string.h>
 
 #include "cmd.h"
 #include "vg_config.h"
@@ -91,7 +92,8 @@ static void print_text(const vg_config *cfg, point_result *pr)
     printf("operating point (%s):\n", cfg->path);
     for (int p = 0; p < VG_NPARAM; p++)
         printf("  %-20s %.10g %s%s\n", vg_param_get((vg_param_id)p)->key, pr->v[p],
-               vg_param_get((vg_param_id)p)->unit, cfg->param[p].defaulted ? "  (default)" : "");
+               strcmp(vg_param_get((vg_param_id)p)->unit, "1") ? vg_param_get((vg_param_id)p)->unit : "",
+               cfg->param[p].defaulted ? "  (default)" : "");
     printf("  mode statistics      %s\n\n", cfg->stats == VG_STATS_FROZEN ? "frozen" : "thermal");
     printf("channels (n > 0: quanta given to the mode; n < 0: taken from it;\n"
            "listed: n = 0 and every channel with at least %.0e of the total)\n", SHARE_MIN);

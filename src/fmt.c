@@ -17,7 +17,7 @@ void vg_fmt_log10(double l10, char *buf, size_t len)
         m /= 10.0;
         e += 1.0;
     }
-    snprintf(buf, len, "%.3fe%+04.0f", m, e);
+    snprintf(buf, len, "%.3fe%+03d", m, (int)e);
 }
 
 void vg_fmt_time(double log10_k, char *buf, size_t len)
