@@ -39,6 +39,15 @@ ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
 ALL_LIBS   = $(PKG_LIBS) -lm
 
 B         := build
+
+# V=1 shows the full commands.
+ifeq ($(V),1)
+Q :=
+say = @true
+else
+Q := @
+say = @printf '  %-6s %s\n' $(1) $(2)
+endif
 SRC       := $(wildcard src/*.c)
 LIB_SRC   := $(filter-out src/main.c,$(SRC))
 LIB_OBJ   := $(LIB_SRC:src/%.c=$(B)/obj/%.o)
@@ -53,20 +62,25 @@ TOOL_BIN  := $(TOOL_SRC:tests/tools/%.c=$(B)/tests/%)
 all: $(B)/vibrogate
 
 $(B)/obj/%.o: src/%.c $(wildcard include/*.h src/*.h) | $(B)/obj
-	$(CC) $(ALL_CFLAGS) -c $< -o $@
+	$(call say,CC,$<)
+	$(Q)$(CC) $(ALL_CFLAGS) -c $< -o $@
 
 $(B)/libvibrogate.a: $(LIB_OBJ)
-	$(AR) rcs $@ $^
+	$(call say,AR,$@)
+	$(Q)$(AR) rcs $@ $^
 
 $(B)/vibrogate: $(MAIN_OBJ) $(B)/libvibrogate.a
-	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(ALL_LIBS)
+	$(call say,LD,$@)
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(ALL_LIBS)
 
 $(B)/tests/test_%: tests/test_%.c $(B)/libvibrogate.a | $(B)/tests
-	$(CC) $(ALL_CFLAGS) $(shell $(PKG_CONFIG) --cflags cmocka) $(LDFLAGS) -o $@ $< \
+	$(call say,LD,$@)
+	$(Q)$(CC) $(ALL_CFLAGS) $(shell $(PKG_CONFIG) --cflags cmocka) $(LDFLAGS) -o $@ $< \
 	    $(B)/libvibrogate.a $(shell $(PKG_CONFIG) --libs cmocka) $(ALL_LIBS)
 
 $(B)/tests/%: tests/tools/%.c $(B)/libvibrogate.a | $(B)/tests
-	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
+	$(call say,LD,$@)
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
 
 $(B)/obj $(B)/tests:
 	mkdir -p $@

@@ -8,6 +8,7 @@
 #include <signal.h>
 #include <stddef.h>
 #include "vg_status.h"
+#include "fmt.h"
 
 typedef struct {
     const char *config;        /* CONFIG argument */
@@ -24,14 +25,5 @@ typedef struct {
 vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err);
-
-/* "3.21e-400" from a log10 value, without under- or overflow. */
-void vg_fmt_log10(double l10, char *buf, size_t len);
-
-/* A time constant 1/k from log10 k: "3.21 ns", "1.2e+03 s", ... */
-void vg_fmt_time(double log10_k, char *buf, size_t len);
-
-/* "12.3 MB" */
-void vg_fmt_bytes(double bytes, char *buf, size_t len);
 
 #endif

@@ -6,7 +6,7 @@
 #include <math.h>
 #include <stdio.h>
 
-#include "cmd.h"
+#include "fmt.h"
 
 void vg_fmt_log10(double l10, char *buf, size_t len)
 {
