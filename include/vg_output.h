@@ -36,7 +36,13 @@ vg_status vg_out_open(vg_writer **w, vg_data_format fmt, const char *dir,
 vg_status vg_out_write(vg_writer *w, size_t start, size_t count,
                        const double *metrics, vg_error *err);
 
-/* Flush, close and rename to the final name; frees w in every case. */
+/* Flush, fsync and close the temporary file, without renaming it, so that
+ * several writers can all be finished before any final name appears.
+ * Idempotent; after a failure only vg_out_abort remains. */
+vg_status vg_out_finish(vg_writer *w, vg_error *err);
+
+/* Finish (if not done yet) and rename to the final name; frees w in every
+ * case. */
 vg_status vg_out_commit(vg_writer *w, vg_error *err);
 
 /* Close and remove the temporary file; frees w.  NULL is allowed. */

@@ -89,10 +89,18 @@ static vg_status open_all(writer_set *ws, const vg_config *cfg, const char *dir,
     return VG_OK;
 }
 
+/* Finish every file first, so that a failure leaves no new final name
+ * beside an old one; then rename them all. */
 static vg_status commit_all(writer_set *ws, int quiet, vg_error *err)
 {
     vg_status st = VG_OK;
 
+    for (size_t i = 0; i < ws->n && st == VG_OK; i++)
+        st = vg_out_finish(ws->w[i], err);
+    if (st != VG_OK) {
+        abort_all(ws);
+        return st;
+    }
     for (size_t i = 0; i < ws->n; i++) {
         char path[4096];
         snprintf(path, sizeof path, "%s", vg_out_path(ws->w[i]));

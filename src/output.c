@@ -242,10 +242,12 @@ static void sync_dir(const vg_writer *w)
     free(dir);
 }
 
-vg_status vg_out_commit(vg_writer *w, vg_error *err)
+vg_status vg_out_finish(vg_writer *w, vg_error *err)
 {
     vg_status st;
 
+    if (w->finished)
+        return VG_OK;
     if (w->failed != VG_OK) {
         st = vg_error_set(err, w->failed, "cannot write '%s': an earlier write failed",
                           w->path);
@@ -256,6 +258,17 @@ vg_status vg_out_commit(vg_writer *w, vg_error *err)
         st = w->fmt->finish(w, err);
     }
     w->fmt->discard(w);
+    if (st == VG_OK)
+        w->finished = 1;
+    else
+        w->failed = st;
+    return st;
+}
+
+vg_status vg_out_commit(vg_writer *w, vg_error *err)
+{
+    vg_status st = vg_out_finish(w, err);
+
     if (st == VG_OK && rename(w->tmp, w->path) != 0)
         st = vg_out_fail_errno(w, errno, err);
     if (st == VG_OK)

@@ -39,6 +39,7 @@ struct vg_writer {
     size_t nsel;               /* number of metrics stored */
     int sel[VG_N_METRICS];     /* their ids, in enum order */
     vg_status failed;          /* VG_OK until a write fails */
+    int finished;              /* 1 once vg_out_finish succeeded */
     void *state;               /* the format's own record */
 };
 
