@@ -1,0 +1,552 @@
+/*
+ * The rate kernel (see vg_rate.h): Marcus-Levich-Jortner rates of one point,
+ * the thermal and frozen vibronic weights ln W_n, and ln I_n(x) in every
+ * range the weights need.  Called by the sweep engine, the point command and
+ * the tests.  Everything is a natural log; no rate is ever formed in linear
+ * form except as a ratio to the largest term of a sum.
+ *
+ * Pure: no I/O, no allocation, no static state.  GSL reports an underflow of
+ * gsl_sf_bessel_In_scaled_e through its status (which is checked and answered
+ * by the asymptotic branch), so the caller must have switched GSL's abort
+ * handler off (main calls gsl_set_error_handler_off() once).
+ *
+ * Channel window (docs/theory.md, "Channel window"): a_n = ln W_n + ln G_n is
+ * concave in n, so the terms are unimodal.  The peak is found by bisection on
+ * the sign of a_{n+1} - a_n, the sum runs outward from it, and a side stops
+ * when the geometric bound on its tail falls below tol/4 of the sum so far.
+ */
+#include <float.h>
+#include <limits.h>
+#include <math.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_sf_bessel.h>
+#include <gsl/gsl_sf_gamma.h>
+
+#include "vg_const.h"
+#include "vg_rate.h"
+
+/* Largest |n| the kernel sums over.  Accepted inputs reach |n| of a few 10^4
+ * (|gap - reorganization| / mode <= 6000 plus the window's width at 1 meV,
+ * 5000 K); the Bessel branches are verified against mpmath up to n = 1e5. */
+#define CHANNEL_LIMIT 100000L
+
+/* Which form a value of ln I_n(x) comes in (so that callers can fold the
+ * large leading term analytically instead of cancelling it numerically). */
+typedef enum {
+    LNI_POWER,  /* ln I_n = n ln(x/2) + rest   (power series) */
+    LNI_SCALED, /* ln I_n = x + rest           (GSL, e^-x I_n) */
+    LNI_FULL    /* ln I_n = rest               (uniform asymptotic) */
+} lni_form;
+
+typedef struct {
+    lni_form form;
+    double rest;
+} lni_parts;
+
+/* One point's channel sequence a_n = ln W_n - (d - n hbar omega)^2 / (4 lam kT). */
+typedef struct {
+    vg_rate_mode *m;
+    double d;       /* gap - reorganization, meV */
+    double inv4lkt; /* 1 / (4 reorganization k_B T), meV^-2 */
+    long nmin;      /* lowest channel with a nonzero weight */
+} chan_seq;
+
+/* ln n!, from GSL's table (n <= 170) or ln Gamma; NaN if GSL fails (the
+ * final finiteness check of vg_rate_eval turns that into an error). */
+static double ln_fact(long n)
+{
+    gsl_sf_result r;
+
+    if (n < 0 || (unsigned long)n > UINT_MAX)
+        return NAN;
+    if (gsl_sf_lnfact_e((unsigned int)n, &r) != GSL_SUCCESS)
+        return NAN;
+    return r.val;
+}
+
+/* ln(1 - e^-y) for y > 0, accurate at both ends (y -> 0 and y -> inf). */
+static double ln_one_minus_exp(double y)
+{
+    return log(-expm1(-y));
+}
+
+/* log(e^a + e^b) without overflow; either may be -inf. */
+static double ln_add_exp(double a, double b)
+{
+    double hi = a > b ? a : b;
+    double lo = a > b ? b : a;
+
+    if (hi == -HUGE_VAL)
+        return hi;
+    return hi + log1p(exp(lo - hi));
+}
+
+/* Power series of I_n (A&S 9.6.10) without its leading (x/2)^n:
+ * ln sum_k (x^2/4)^k / (k! (n+1)_k) - ln n!.  Used only for x^2 < n + 1, where
+ * the ratio of successive terms is below 1/4, so stopping at a term below
+ * DBL_EPSILON/2 of the sum leaves a tail below a third of that. */
+static double series_rest(long n, double x)
+{
+    double q = 0.25 * x * x;
+    double term = 1.0;
+    double sum = 0.0;
+
+    for (long k = 1; term > 0.5 * DBL_EPSILON * (1.0 + sum); k++) {
+        term *= q / ((double)k * (double)(n + k));
+        sum += term;
+    }
+    return log1p(sum) - ln_fact(n);
+}
+
+/* u_k(t) of the uniform expansion, A&S 9.3.9 and 9.3.10. */
+static double debye_sum(double t, double nu)
+{
+    double t2 = t * t;
+    double u1 = t * (3.0 - 5.0 * t2) / 24.0;
+    double u2 = t2 * (81.0 + t2 * (-462.0 + t2 * 385.0)) / 1152.0;
+    double u3 = t * t2 * (30375.0 + t2 * (-369603.0 + t2 * (765765.0
+                - t2 * 425425.0))) / 414720.0;
+    double u4 = t2 * t2 * (4465125.0 + t2 * (-94121676.0 + t2 * (349922430.0
+                + t2 * (-446185740.0 + t2 * 185910725.0)))) / 39813120.0;
+
+    return 1.0 + (u1 + (u2 + (u3 + u4 / nu) / nu) / nu) / nu;
+}
+
+/* ln I_nu(nu z), uniform asymptotic expansion for large order, A&S 9.7.7:
+ * I_nu(nu z) ~ e^{nu eta} / sqrt(2 pi nu) / (1+z^2)^{1/4} sum_k u_k(t)/nu^k,
+ * t = 1/sqrt(1+z^2), eta = sqrt(1+z^2) + ln(z / (1 + sqrt(1+z^2))).
+ * Reached only for n >~ 280 (below that GSL's scaled value is normal), where
+ * the first omitted term u_5/nu^5 is below 1e-12. */
+static double debye_ln_i(long n, double ln_x)
+{
+    double nu = (double)n;
+    double ln_z = ln_x - log(nu);
+    double root = hypot(1.0, exp(ln_z));
+    double eta = root + ln_z - log1p(root);
+
+    return nu * eta - 0.5 * log(2.0 * VG_PI * nu) - 0.5 * log(root)
+           + log(debye_sum(1.0 / root, nu));
+}
+
+/* GSL's e^-x I_n(x) as ln; 0 when GSL fails or its value is not normal
+ * (underflow, where the asymptotic branch takes over). */
+static int scaled_ln_i(long n, double x, double *rest)
+{
+    gsl_sf_result r;
+
+    if (n > INT_MAX)
+        return 0;
+    if (gsl_sf_bessel_In_scaled_e((int)n, x, &r) != GSL_SUCCESS)
+        return 0;
+    if (!isnormal(r.val) || r.val <= 0.0)
+        return 0;
+    *rest = log(r.val);
+    return 1;
+}
+
+/* ln I_n(x), n >= 0, in the branch that is accurate there. */
+static lni_parts ln_bessel_parts(long n, double x, double ln_x)
+{
+    lni_parts p;
+
+    if (x * x < (double)n + 1.0) {
+        p.form = LNI_POWER;
+        p.rest = series_rest(n, x);
+    } else if (scaled_ln_i(n, x, &p.rest)) {
+        p.form = LNI_SCALED;
+    } else {
+        p.form = LNI_FULL;
+        p.rest = debye_ln_i(n, ln_x);
+    }
+    return p;
+}
+
+double vg_rate_ln_bessel_i(long n, double x, double ln_x)
+{
+    long a = n < 0 ? -n : n; /* I_{-n} = I_n for integer n */
+    lni_parts p = ln_bessel_parts(a, x, ln_x);
+
+    if (p.form == LNI_SCALED)
+        return x + p.rest;
+    if (p.form == LNI_FULL || a == 0)
+        return p.rest;
+    return (double)a * (ln_x - log(2.0)) + p.rest;
+}
+
+/* Thermal weight, W_n = exp(-S coth(b/2)) exp(n b/2) I_|n|(S / sinh(b/2))
+ * (Jortner 1976).  The large terms are combined analytically per branch:
+ *   power:  n b/2 + |n| ln(x/2) = |n| (ln S - ln(1 - e^-b)) - [n < 0] |n| b
+ *   scaled: -S coth(b/2) + x    = -S tanh(b/4)
+ * so that at 1 K nothing of size b ~ 1e6 is cancelled. */
+static double ln_weight_thermal(const vg_rate_mode *m, long n)
+{
+    long a = n < 0 ? -n : n;
+    double da = (double)a;
+    lni_parts p = ln_bessel_parts(a, m->x, m->ln_x);
+
+    if (p.form == LNI_POWER) {
+        double lead = a == 0 ? 0.0 : da * (m->ln_s - ln_one_minus_exp(m->beta));
+        double down = n < 0 ? da * m->beta : 0.0;
+        return m->c0 + lead - down + p.rest;
+    }
+    if (p.form == LNI_SCALED)
+        return -m->S * tanh(0.25 * m->beta) + 0.5 * (double)n * m->beta + p.rest;
+    return m->c0 + 0.5 * (double)n * m->beta + p.rest;
+}
+
+double vg_rate_ln_weight(const vg_rate_mode *m, long n)
+{
+    if (m->S == 0.0)
+        return n == 0 ? 0.0 : -HUGE_VAL;
+    if (m->stats == VG_STATS_FROZEN) /* Poisson: e^-S S^n / n! */
+        return n < 0 ? -HUGE_VAL : m->c0 + (double)n * m->ln_s - ln_fact(n);
+    return ln_weight_thermal(m, n);
+}
+
+double vg_rate_ln_weight_cached(vg_rate_mode *m, long n)
+{
+    size_t i;
+
+    if (m->tab_len == 0 || n < m->tab_lo)
+        return vg_rate_ln_weight(m, n);
+    i = (size_t)(n - m->tab_lo);
+    if (i >= m->tab_len)
+        return vg_rate_ln_weight(m, n);
+    if (!m->tab_set[i]) {
+        m->tab[i] = vg_rate_ln_weight(m, n);
+        m->tab_set[i] = 1;
+    }
+    return m->tab[i];
+}
+
+void vg_rate_mode_attach_table(vg_rate_mode *m, long lo, size_t len,
+                               double *tab, unsigned char *set)
+{
+    m->tab_lo = lo;
+    m->tab_len = len;
+    m->tab = tab;
+    m->tab_set = set;
+    for (size_t i = 0; i < len; i++)
+        set[i] = 0;
+}
+
+/* The checks of vg_rate_mode_init, one message per way to fail. */
+static vg_status mode_check(vg_mode_statistics stats, double S, double mode,
+                            double T, vg_error *err)
+{
+    if (stats != VG_STATS_THERMAL && stats != VG_STATS_FROZEN)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'mode_statistics' must be thermal or frozen (got code %d)", (int)stats);
+    if (!isfinite(S) || S < 0.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'huang_rhys' must be a finite number >= 0 (got %g)", S);
+    if (!isfinite(mode) || mode <= 0.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'mode' must be a finite energy > 0 meV (got %g meV)", mode);
+    if (!isfinite(T) || T <= 0.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'temperature' must be finite and > 0 K (got %g K)", T);
+    if (!isnormal(VG_KB_MEV * T) || !isfinite(mode / (VG_KB_MEV * T)))
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'mode' / k_B 'temperature' is not a finite number "
+                            "(mode %g meV, temperature %g K)", mode, T);
+    return VG_OK;
+}
+
+vg_status vg_rate_mode_init(vg_rate_mode *m, vg_mode_statistics stats,
+                            double huang_rhys, double mode_meV, double temperature_K,
+                            vg_error *err)
+{
+    vg_status st = mode_check(stats, huang_rhys, mode_meV, temperature_K, err);
+    double h;
+
+    if (!m)
+        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode record");
+    if (st != VG_OK)
+        return st;
+    m->stats = stats;
+    m->S = huang_rhys;
+    m->mode = mode_meV;
+    m->kT = VG_KB_MEV * temperature_K;
+    m->beta = mode_meV / m->kT;
+    h = 0.5 * m->beta;
+    m->ln_s = log(huang_rhys); /* -inf for S == 0, never used then */
+    /* ln sinh h = h - ln 2 + ln(1 - e^-2h): finite for h up to DBL_MAX */
+    m->ln_x = m->ln_s - (h - log(2.0) + ln_one_minus_exp(2.0 * h));
+    m->x = huang_rhys == 0.0 ? 0.0 : exp(m->ln_x);
+    m->c0 = stats == VG_STATS_FROZEN ? -huang_rhys : -huang_rhys / tanh(h);
+    m->tab_lo = 0;
+    m->tab_len = 0;
+    m->tab = NULL;
+    m->tab_set = NULL;
+    return VG_OK;
+}
+
+/* ln of the golden-rule prefactor (2 pi / hbar) V^2 (4 pi lam kT)^-1/2 in
+ * s^-1, with V, lam, kT converted from meV to eV. */
+static double ln_prefactor(double coupling, double reorg, double kT)
+{
+    double ln_mev = log(VG_MEV_PER_EV);
+    double ln_v = log(coupling) - ln_mev;
+    double ln_var = log(4.0 * VG_PI) + log(reorg) + log(kT) - 2.0 * ln_mev;
+
+    return log(2.0 * VG_PI / VG_HBAR_EVS) + 2.0 * ln_v - 0.5 * ln_var;
+}
+
+/* ln of the Marcus Gaussian of channel n, -(d - n hbar omega)^2 / (4 lam kT). */
+static double ln_gauss(double d, double n_mode, double inv4lkt)
+{
+    double u = d - n_mode;
+
+    return -u * u * inv4lkt;
+}
+
+static double chan_a(chan_seq *s, long n)
+{
+    double lw = vg_rate_ln_weight_cached(s->m, n);
+
+    return lw + ln_gauss(s->d, (double)n * s->m->mode, s->inv4lkt);
+}
+
+static double chan_step(chan_seq *s, long n)
+{
+    return chan_a(s, n + 1) - chan_a(s, n);
+}
+
+/* Bracket of the peak: the smallest n with a_{n+1} <= a_n lies in [*lo, *hi].
+ * Starts between the weight peak (~S) and the Gaussian centre d/mode (the
+ * maximum of a sum of two concave sequences lies between theirs) and widens
+ * by doubling steps should rounding have put it just outside. */
+static int peak_bracket(chan_seq *s, double centre, long *lo, long *hi)
+{
+    double S = s->m->S;
+    long l = (long)floor(fmin(centre, S));
+    long h = (long)ceil(fmax(centre, S));
+
+    l = l < s->nmin ? s->nmin : l;
+    h = h < s->nmin ? s->nmin : h;
+    for (long step = 1; chan_step(s, h) > 0.0; step *= 2) {
+        l = h + 1;
+        h += step;
+        if (h > CHANNEL_LIMIT)
+            return 0;
+    }
+    for (long step = 1; l > s->nmin && chan_step(s, l - 1) <= 0.0; step *= 2) {
+        h = l - 1;
+        l = l - step < s->nmin ? s->nmin : l - step;
+        if (l < -CHANNEL_LIMIT)
+            return 0;
+    }
+    *lo = l;
+    *hi = h;
+    return 1;
+}
+
+/* Largest term: bisection on the sign of a_{n+1} - a_n, which never increases
+ * with n because a_n is concave (docs/theory.md). */
+static int find_peak(chan_seq *s, double centre, long *peak)
+{
+    long lo, hi;
+
+    if (!peak_bracket(s, centre, &lo, &hi))
+        return 0;
+    while (lo < hi) {
+        long mid = lo + (hi - lo) / 2;
+        if (chan_step(s, mid) <= 0.0)
+            hi = mid;
+        else
+            lo = mid + 1;
+    }
+    *peak = lo;
+    return 1;
+}
+
+/* Sum exp(a_n - a_ref) for n = start, start+dir, ... (n = 0 excluded: it is
+ * the elastic channel) into *sum.  Once the step ratio r = t_n / t_{n-dir} is
+ * below 1, every later ratio is at most r (log-concavity), so the rest of the
+ * side is at most t_n r / (1 - r); stop when that is below tol4 * *sum.
+ * Returns 0 if the side runs past CHANNEL_LIMIT. */
+static int sum_side(chan_seq *s, long start, long dir, double a_ref, double tol4,
+                    double *sum, long *last)
+{
+    double a_prev = a_ref;
+
+    *last = start - dir;
+    for (long n = start; n >= s->nmin; n += dir) {
+        double a, t, lr;
+
+        if (n > CHANNEL_LIMIT || n < -CHANNEL_LIMIT)
+            return 0;
+        a = chan_a(s, n);
+        if (isnan(a)) { /* only from a corrupted mode record: let the guard report it */
+            *sum = NAN;
+            return 1;
+        }
+        t = exp(a - a_ref);
+        if (n != 0)
+            *sum += t;
+        *last = n;
+        lr = a - a_prev;
+        if (lr < 0.0 && t * exp(lr) / -expm1(lr) <= tol4 * *sum)
+            return 1;
+        a_prev = a;
+    }
+    return 1;
+}
+
+/* ln of the assisted part sum_{n != 0} W_n G_n, and the channel window. */
+static vg_status assisted_sum(chan_seq *s, double tol, vg_rates *out, vg_error *err)
+{
+    long p, q, lo, hi;
+    double a_q, sum = 1.0;
+    double centre = s->d / s->m->mode;
+
+    if (!(fabs(centre) <= (double)CHANNEL_LIMIT) || s->m->S > (double)CHANNEL_LIMIT
+        || !find_peak(s, centre, &p))
+        goto out_limit;
+    q = p != 0 ? p : (chan_a(s, 1) >= chan_a(s, -1) ? 1 : -1);
+    a_q = chan_a(s, q);
+    if (!sum_side(s, q + 1, 1, a_q, 0.25 * tol, &sum, &hi)
+        || !sum_side(s, q - 1, -1, a_q, 0.25 * tol, &sum, &lo))
+        goto out_limit;
+    out->ln_fc_assisted = a_q + log(sum);
+    out->n_peak = p;
+    out->n_lo = lo < q ? lo : q;
+    out->n_hi = hi > q ? hi : q;
+    return VG_OK;
+out_limit:
+    return vg_error_set(err, VG_ENUMERIC,
+                        "the channel window needs |n| > %ld quanta of 'mode' "
+                        "(gap - reorganization %g meV, mode %g meV, huang_rhys %g)",
+                        CHANNEL_LIMIT, s->d, s->m->mode, s->m->S);
+}
+
+/* The checks of vg_rate_eval, one message per way to fail. */
+static vg_status point_check(const vg_rate_mode *m, double gap, double reorg,
+                             double coupling, double tol, const vg_rates *out,
+                             vg_error *err)
+{
+    if (!m || !out)
+        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode or result record");
+    if (!isfinite(gap))
+        return vg_error_set(err, VG_ENUMERIC, "'gap' must be a finite energy in meV (got %g)", gap);
+    if (!isfinite(reorg) || reorg <= 0.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'reorganization' must be finite and > 0 meV (got %g meV)", reorg);
+    if (!isfinite(coupling) || coupling < 0.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'electronic_coupling' must be finite and >= 0 meV (got %g meV)",
+                            coupling);
+    if (!isfinite(tol) || tol <= 0.0 || tol >= 1.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'tolerance' must lie strictly between 0 and 1 (got %g)", tol);
+    if (!(reorg * m->kT > 0.0) || !isnormal(4.0 * reorg * m->kT))
+        return vg_error_set(err, VG_ENUMERIC,
+                            "4 'reorganization' k_B T is not a normal number "
+                            "(reorganization %g meV, k_B T %g meV)", reorg, m->kT);
+    return VG_OK;
+}
+
+/* Fill the rate fields from the V- and prefactor-free logs. */
+static void finish_rates(vg_rates *out, double ln_p, int coupling_zero)
+{
+    out->ln_fc_total = ln_add_exp(out->ln_fc_elastic, out->ln_fc_assisted);
+    out->coupling_zero = coupling_zero;
+    out->ln_k_elastic = coupling_zero ? -HUGE_VAL : ln_p + out->ln_fc_elastic;
+    out->ln_k_assisted = coupling_zero ? -HUGE_VAL : ln_p + out->ln_fc_assisted;
+    out->ln_k_total = coupling_zero ? -HUGE_VAL : ln_p + out->ln_fc_total;
+    out->ln_k_bare = coupling_zero ? -HUGE_VAL : ln_p + out->ln_fc_bare;
+}
+
+/* No NaN and no +inf may leave the kernel; -inf only where a flag says the
+ * rate is exactly zero. */
+static int rates_valid(const vg_rates *r)
+{
+    int fc = isfinite(r->ln_fc_elastic) && isfinite(r->ln_fc_total)
+             && isfinite(r->ln_fc_bare)
+             && (r->assisted_zero || isfinite(r->ln_fc_assisted));
+    int k = r->coupling_zero
+            || (isfinite(r->ln_k_elastic) && isfinite(r->ln_k_total)
+                && isfinite(r->ln_k_bare)
+                && (r->assisted_zero || isfinite(r->ln_k_assisted)));
+    return fc && k;
+}
+
+vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,
+                       double coupling_meV, double tol, vg_rates *out,
+                       vg_error *err)
+{
+    vg_status st = point_check(m, gap_meV, reorg_meV, coupling_meV, tol, out, err);
+    chan_seq s;
+
+    if (st != VG_OK)
+        return st;
+    s.m = m;
+    s.d = gap_meV - reorg_meV;
+    s.inv4lkt = 1.0 / (4.0 * reorg_meV * m->kT);
+    s.nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
+    out->ln_fc_bare = ln_gauss(s.d, 0.0, s.inv4lkt);
+    out->ln_fc_elastic = chan_a(&s, 0);
+    out->ln_fc_assisted = -HUGE_VAL;
+    out->assisted_zero = m->S == 0.0;
+    out->n_lo = out->n_hi = out->n_peak = 0;
+    if (!out->assisted_zero && (st = assisted_sum(&s, tol, out, err)) != VG_OK)
+        return st;
+    finish_rates(out, coupling_meV == 0.0 ? 0.0 : ln_prefactor(coupling_meV, reorg_meV, m->kT),
+                 coupling_meV == 0.0);
+    if (!rates_valid(out))
+        return vg_error_set(err, VG_ENUMERIC,
+                            "rate kernel produced a non-finite value at gap %g meV, "
+                            "reorganization %g meV, coupling %g meV, huang_rhys %g, "
+                            "mode %g meV, k_B T %g meV", gap_meV, reorg_meV,
+                            coupling_meV, m->S, m->mode, m->kT);
+    return VG_OK;
+}
+
+vg_status vg_rate_eval_batch(vg_rate_mode *m, size_t count, const double *gap_meV,
+                             const double *reorg_meV, const double *coupling_meV,
+                             double tol, vg_rates *out, vg_error *err)
+{
+    for (size_t i = 0; i < count; i++) {
+        vg_status st = vg_rate_eval(m, gap_meV[i], reorg_meV[i], coupling_meV[i],
+                                    tol, &out[i], err);
+        if (st != VG_OK) {
+            vg_error_prefix(err, "point %zu: ", i);
+            return st;
+        }
+    }
+    return VG_OK;
+}
+
+/* Inputs as vg_rate_eval accepts them (no status here: the caller has
+ * evaluated the point first); NaN for inputs it would reject. */
+double vg_rate_ln_channel(vg_rate_mode *m, double gap_meV, double reorg_meV,
+                          double coupling_meV, long n)
+{
+    double inv4lkt = 1.0 / (4.0 * reorg_meV * m->kT);
+    double lw = vg_rate_ln_weight_cached(m, n);
+
+    if (!(reorg_meV > 0.0) || !(coupling_meV >= 0.0) || !isfinite(gap_meV))
+        return NAN;
+    if (coupling_meV == 0.0 || lw == -HUGE_VAL)
+        return -HUGE_VAL;
+    return ln_prefactor(coupling_meV, reorg_meV, m->kT) + lw
+           + ln_gauss(gap_meV - reorg_meV, (double)n * m->mode, inv4lkt);
+}
+
+/* Marcus & Sutin (1985): ln[(2 pi/hbar) V^2 (4 pi lam kT)^-1/2
+ * exp(-(gap - lam)^2 / (4 lam kT))]; NaN for inputs vg_rate_eval rejects. */
+double vg_rate_ln_marcus(double gap_meV, double reorg_meV, double coupling_meV,
+                         double temperature_K)
+{
+    double kT = VG_KB_MEV * temperature_K;
+    double inv4lkt = 1.0 / (4.0 * reorg_meV * kT);
+
+    if (!(reorg_meV > 0.0) || !(kT > 0.0) || !(coupling_meV >= 0.0) || !isfinite(gap_meV))
+        return NAN;
+    if (coupling_meV == 0.0)
+        return -HUGE_VAL;
+    return ln_prefactor(coupling_meV, reorg_meV, kT)
+           + ln_gauss(gap_meV - reorg_meV, 0.0, inv4lkt);
+}
