@@ -4,6 +4,7 @@
  * commit them only when the whole grid is done.  Any failure or an
  * interrupt removes the temporary files; no partial output keeps a final name.
  */
+#define _POSIX_C_SOURCE 200809L
 #include <errno.h>
 #include <stdio.h>
 #include <string.h>

@@ -2,6 +2,7 @@
  * vibrogate: command-line entry point.  Parses arguments, dispatches to a
  * command (src/cmd_*.c) and maps its status to the exit status.
  */
+#define _POSIX_C_SOURCE 200809L
 #include <getopt.h>
 #include <signal.h>
 #include <stdio.h>
@@ -58,7 +59,10 @@ static void usage(FILE *f)
 static void version(void)
 {
     printf("vibrogate %s\n", VG_VERSION);
-    printf("GSL %s, NetCDF %.40s, inih %s", gsl_version, nc_inq_libvers(), VG_INIH_VERSION);
+    const char *nc = nc_inq_libvers();
+
+    printf("GSL %s, NetCDF %.*s, inih %s", gsl_version, (int)strcspn(nc, " "), nc,
+           VG_INIH_VERSION);
 #ifdef _OPENMP
     printf(", OpenMP %d", _OPENMP);
 #endif

@@ -8,6 +8,7 @@
  * the kernel computes the same values with or without it, which is what
  * keeps the output independent of how points are split between threads.
  */
+#define _POSIX_C_SOURCE 200809L
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
