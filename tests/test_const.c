@@ -28,7 +28,7 @@ static void assert_rel(double got, double want, double tol)
         fail_msg("got %.12g, want %.12g: relative difference %.3g > %.3g", got, want, rel, tol);
 }
 
-/* k_B = 8.617333262e-5 eV/K (CODATA 2018, exact in the 2019 SI; physics.md). */
+/* k_B = 8.617333262e-5 eV/K (CODATA 2018, exact in the 2019 SI; docs/theory.md). */
 static void test_boltzmann_ev(void **state)
 {
     (void)state;
@@ -36,14 +36,14 @@ static void test_boltzmann_ev(void **state)
     assert_rel(VG_KB_MEV, 8.617333262e-2, LISTED_TOL);
 }
 
-/* hbar = 6.582119569e-16 eV s (CODATA 2018; physics.md). */
+/* hbar = 6.582119569e-16 eV s (CODATA 2018; docs/theory.md). */
 static void test_hbar_evs(void **state)
 {
     (void)state;
     assert_rel(VG_HBAR_EVS, 6.582119569e-16, LISTED_TOL);
 }
 
-/* hc = 1.239841984e-6 eV m = 1.239841984e-4 eV cm (CODATA 2018; physics.md),
+/* hc = 1.239841984e-6 eV m = 1.239841984e-4 eV cm (CODATA 2018; docs/theory.md),
  * hence 1 cm^-1 = 0.1239841984 meV. */
 static void test_hc_and_wavenumber(void **state)
 {

@@ -9,7 +9,7 @@
  * vg_grid.h; the sweep.csv layout of the project's output specification
  * (the six parameter columns gap_meV .. temperature_K, then the selected
  * metrics, empty fields for missing values); NC_FILL_DOUBLE from netcdf.h;
- * CODATA 2018 values from physics.md; "%.17g" reads back to the same double
+ * CODATA 2018 values from docs/theory.md; "%.17g" reads back to the same double
  * (17 significant digits suffice for binary64: IEEE 754-2008 section 5.12.2,
  * from memory).
  */
@@ -682,7 +682,7 @@ static void check_globals(int ncid, const vg_config *cfg)
     assert_att_contains(ncid, "comment", "first line of notes\nsecond line");
     assert_att_contains(ncid, "comment", "model predictions");
     assert_att_contains(ncid, "physical_constants", "CODATA 2018");
-    /* CODATA 2018 (physics.md): k_B = 8.617333262e-5 eV/K, hbar =
+    /* CODATA 2018 (docs/theory.md): k_B = 8.617333262e-5 eV/K, hbar =
      * 6.582119569e-16 eV s, hc = 1.239841984e-4 eV cm, N_A = 6.02214076e23. */
     assert_true(fabs(att_double(ncid, NC_GLOBAL, "k_B_eV_per_K") / 8.617333262e-5 - 1) < 1e-9);
     assert_true(fabs(att_double(ncid, NC_GLOBAL, "hbar_eV_s") / 6.582119569e-16 - 1) < 1e-9);

@@ -1,7 +1,7 @@
 /*
  * Tests of the rate kernel (src/rate.c) and the metrics (src/metrics.c)
  * against exact identities, published limits and closed forms
- * (/work/shared/physics.md names the sources; each check names its own).
+ * (docs/theory.md names the sources; each check names its own).
  * Inputs are "high-entropy" (2.385, not 2) so that a swapped argument or a
  * dropped factor cannot pass by accident.  Tolerances are stated per check;
  * the independent numerical reference (mpmath, scipy) is
@@ -76,7 +76,7 @@ static double prefactor_direct(double V, double lam, double T)
 
 /* Sum rule, first moment and variance of the thermal weights (they form the
  * Skellam distribution of emitted minus absorbed quanta): sum W_n = 1,
- * sum n W_n = S, sum n^2 W_n - S^2 = S (2 nbar + 1) (physics.md, "Identities").
+ * sum n W_n = S, sum n^2 W_n - S^2 = S (2 nbar + 1) (docs/theory.md, "Identities").
  * Frozen: Poisson, variance S.  A few thousand terms each good to ~1e-14:
  * tolerance 1e-12 on the sum, 1e-11 relative on the moments. */
 static void check_moments(vg_mode_statistics st, double S, double hw, double T)
@@ -109,7 +109,7 @@ static void test_weight_moments(void **state)
     check_moments(VG_STATS_FROZEN, 38.5, 61.7, 298.15);
 }
 
-/* W_{-n} = W_n e^{-n beta} (physics.md; detailed balance of the mode).
+/* W_{-n} = W_n e^{-n beta} (docs/theory.md; detailed balance of the mode).
  * Tolerance 1e-12 relative to max(1, |ln W|). */
 static void check_reflection(double S, double hw, double T)
 {
@@ -161,7 +161,7 @@ static void test_weight_concave(void **state)
     check_concave(VG_STATS_FROZEN, 38.5, 61.7, 298.15);
 }
 
-/* 60 K, 256 meV (physics.md): the direct transcription W_n = exp(-S(2nbar+1))
+/* 60 K, 256 meV (docs/theory.md): the direct evaluation W_n = exp(-S(2nbar+1))
  * ((nbar+1)/nbar)^(n/2) I_n(2S sqrt(nbar(nbar+1))) over a fixed window
  * |n| <= 50 meets inf * 0 = NaN; ours stays finite and, with e^-beta ~ 1e-22,
  * equals the Poisson weight e^-S S^n / n! to rounding (tolerance 1e-12
@@ -247,7 +247,7 @@ static void test_marcus_peak_and_symmetry(void **state)
     assert_true(vg_rate_ln_marcus(lam, lam, 0.0, T) == -HUGE_VAL);
 }
 
-/* S -> 0 gives the bare Marcus rate (physics.md).  At gap = lam every
+/* S -> 0 gives the bare Marcus rate (docs/theory.md).  At gap = lam every
  * channel's Gaussian is at most the elastic one, so
  * W_0 <= k_total/k_bare <= sum W_n = 1, and 1 - W_0 <= S coth(beta/2):
  * |ln(k_total/k_bare)| <= 2 S coth(beta/2) for small S.  S == 0 exactly:
@@ -274,7 +274,7 @@ static void test_small_s_is_marcus(void **state)
 }
 
 /* hbar omega << k_B T: the mode becomes classical and the total rate is
- * Marcus with reorganization lam + S hbar omega (physics.md; Jortner 1976).
+ * Marcus with reorganization lam + S hbar omega (docs/theory.md; Jortner 1976).
  * A limit, not an identity: the leading corrections are the mode's
  * effective temperature (hbar omega/2) coth(beta/2) = kT (1 + beta^2/12),
  * beta^2/12 ~ 1e-5 here, and its third cumulant S (hbar omega)^3 against
@@ -300,8 +300,8 @@ static void test_classical_mode_limit(void **state)
 
 /* k(gap) / k(-gap) = exp(gap / kT) for the thermal mode, channel by channel
  * (W_{-n} = W_n e^{-n beta} and the Gaussians' ratio exp((gap - n hw)/kT);
- * physics.md).  Each rate is good to tol/2 + rounding: tolerance 1e-12 on
- * the ln ratio.  The frozen (Poisson) weights break it (physics.md). */
+ * docs/theory.md).  Each rate is good to tol/2 + rounding: tolerance 1e-12 on
+ * the ln ratio.  The frozen (Poisson) weights break it (docs/theory.md). */
 static void check_balance(double gap, double lam, double S, double hw, double T)
 {
     vg_rate_mode m = mode_of(VG_STATS_THERMAL, S, hw, T);
@@ -331,7 +331,7 @@ static void test_detailed_balance(void **state)
 /* --------------------------------------------------- frozen crossover --- */
 
 /* Frozen mode: k_1 = k_0 at gap = lam + hw/2 + (2 lam kT/hw) ln(1/S)
- * (from the Poisson weights, physics.md).  Exponents of size ~10: tolerance
+ * (from the Poisson weights, docs/theory.md).  Exponents of size ~10: tolerance
  * 1e-12 on ln k_1 - ln k_0, and the sign on either side. */
 static void test_frozen_crossover(void **state)
 {
@@ -530,7 +530,7 @@ static void test_metric_table(void **state)
     assert_null(vg_metric_get(VG_N_METRICS));
 }
 
-/* The definitions of physics.md on a hand-made record: log10 = ln / ln 10,
+/* The definitions of docs/theory.md on a hand-made record: log10 = ln / ln 10,
  * fraction = k_as / (k_el + k_as) from the log difference without overflow
  * (difference +-800: 1 and e^-800 -> 0, never NaN), contrast = total/bare. */
 static void test_metric_values(void **state)

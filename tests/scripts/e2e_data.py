@@ -38,7 +38,7 @@ BINARY = os.path.join(ROOT, BUILD, "vibrogate") if not os.path.isabs(BUILD) \
     else os.path.join(BUILD, "vibrogate")
 CONFIG = os.path.join(ROOT, "configs", "demo.ini")
 
-# Axis order, slowest first (vg_grid.h) and canonical units (physics.md table).
+# Axis order, slowest first (vg_grid.h) and canonical units (docs/theory.md table).
 AXIS_ORDER = ["temperature", "mode", "huang_rhys", "electronic_coupling",
               "reorganization", "gap"]
 UNITS = {"gap": "meV", "reorganization": "meV", "electronic_coupling": "meV",

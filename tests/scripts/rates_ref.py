@@ -278,7 +278,7 @@ def corner_points():
                 for hw in (1.0, 1000.0):
                     for lam in (0.1, 3000.0):
                         pts.append((gap, lam, 1000.0 if gap > 0 else 1e-3, S, hw, T))
-    # named cases: the direct formulas fail at 60 K, 256 meV (physics.md);
+    # named cases: the direct formulas fail at 60 K, 256 meV (docs/theory.md);
     # the receptor estimate of Brookes et al., PRL 98, 038101 (2007), from memory
     pts.append((385.0, 123.85, 2.385, 2.385, 256.0, 60.0))
     pts.append((230.0, 30.0, 1.0, 0.0385, 200.0, 298.15))
