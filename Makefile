@@ -22,7 +22,7 @@ ifeq ($(CI),true)
 WERROR ?= 1
 endif
 
-PKGS      := gsl inih netcdf
+PKGS      := gsl inih netcdf libpng cairo cairo-pdf cairo-svg pangocairo
 WARN      := -Wall -Wextra -Wshadow -Wconversion -Wstrict-prototypes
 ifeq ($(WERROR),1)
 WARN      += -Werror

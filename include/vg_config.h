@@ -46,6 +46,39 @@ typedef struct {
 
 typedef enum { VG_FMT_NETCDF = 1u, VG_FMT_CSV = 2u } vg_data_format;
 
+typedef enum { VG_FIG_PNG = 1u, VG_FIG_PDF = 2u, VG_FIG_SVG = 4u } vg_figure_format;
+
+#define VG_MAX_CONTOURS 16
+#define VG_MAX_MARKS 16
+
+/* A named operating point to mark on the maps: the parameters it fixes
+ * (has[p] != 0), in canonical units.  Only x and y matter for drawing; a
+ * mark fixing a panel or row axis is drawn where that value is shown. */
+typedef struct {
+    char label[64];
+    double v[VG_NPARAM];
+    int has[VG_NPARAM];
+    int line;                  /* config line, -1 = --set */
+} vg_mark;
+
+/* What figures to draw ([output] figure keys; docs/config.md). */
+typedef struct {
+    unsigned formats;          /* VG_FIG_* bits; 0 = no figures */
+    size_t nmaps;
+    vg_metric_id maps[VG_N_METRICS]; /* in the order given; default log10_ratio */
+    vg_param_id x, y;          /* the two map axes (default: gap, reorganization
+                                  when they are axes, else the two fastest axes) */
+    int panels;                /* vg_param_id of the panel axis, -1 = none */
+    int rows;                  /* vg_param_id of the row axis, -1 = none */
+    double width_in;           /* figure width in inches (default 7) */
+    double dpi;                /* PNG resolution (default 300) */
+    char font[64];             /* Pango family (default "DejaVu Sans") */
+    size_t ncontours;
+    double contours[VG_MAX_CONTOURS]; /* extra levels, in the map metric's units */
+    size_t nmarks;
+    vg_mark marks[VG_MAX_MARKS];
+} vg_figure_spec;
+
 typedef struct {
     char *path;               /* config file path as given (owned) */
     char *text;               /* full config file text (owned) */
@@ -59,6 +92,7 @@ typedef struct {
     unsigned formats;         /* VG_FMT_* bits, default both */
     int metric_on[VG_N_METRICS]; /* which metrics to store (default all) */
     double max_bytes;         /* [output] max_size in bytes */
+    vg_figure_spec fig;       /* [output] figures, maps, x, y, panels, rows, ... */
 } vg_config;
 
 /* Parse path, apply the nset overrides "section.key=value" in order, and
@@ -66,6 +100,11 @@ typedef struct {
  * "--set section.key: ..." for overrides) and cfg is left freed. */
 vg_status vg_config_load(vg_config *cfg, const char *path,
                          size_t nset, const char *const *sets, vg_error *err);
+
+/* Same as vg_config_load for a config held in memory (the text stored in a
+ * data file): name is used in messages in place of a file path. */
+vg_status vg_config_load_text(vg_config *cfg, const char *name, const char *text,
+                              size_t nset, const char *const *sets, vg_error *err);
 
 void vg_config_free(vg_config *cfg);
 
