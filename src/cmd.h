@@ -25,5 +25,13 @@ typedef struct {
 vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err);
+vg_status vg_cmd_render(const vg_cmd_args *a, vg_error *err);
+vg_status vg_cmd_spectrum(const vg_cmd_args *a, vg_error *err);
+
+/* Draw the maps of the data file nc_path into dir (render, and sweep after
+ * its data are committed); default_png: draw PNG when the config names no
+ * figure format. */
+vg_status vg_cmd_figures(const char *nc_path, const char *dir, size_t nset,
+                         const char *const *sets, int quiet, int default_png, vg_error *err);
 
 #endif

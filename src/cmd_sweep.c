@@ -152,7 +152,13 @@ static vg_status run(const vg_cmd_args *a, const vg_config *cfg, vg_error *err)
             vg_error_prefix(err, "sweep stopped: ");
         return st;
     }
-    return commit_all(&ws, a->quiet, err);
+    st = commit_all(&ws, a->quiet, err);
+    if (st == VG_OK && cfg->fig.formats) {
+        char nc[4200];
+        snprintf(nc, sizeof nc, "%s/sweep.nc", dir);
+        st = vg_cmd_figures(nc, dir, 0, NULL, a->quiet, 0, err);
+    }
+    return st;
 }
 
 vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err)

@@ -10,13 +10,16 @@
  * handler knows the line number (Debian's libinih is built without
  * INI_HANDLER_LINENO).  Checks of one line or one value run as the lines are
  * read, so the first mistake in file order is the one reported; checks of
- * the whole (missing parameters, grid and output size) run after the
+ * the whole (missing parameters, grid and output size, and, when figures
+ * are asked for, how the figure keys fit the grid) run after the
  * overrides.  Every message is "FILE:LINE: what is wrong" or
  * "--set section.key: what is wrong", status VG_ECONFIG (VG_ENOMEM when
  * memory runs out).
  *
- * Called by the commands (src/cmd_*.c) through vg_config_load; the value
- * grammar is exposed as vg_config_parse_value for tests.
+ * Called by the commands (src/cmd_*.c) through vg_config_load, and through
+ * vg_config_load_text for a config stored in a data file (the same parser,
+ * with a name in place of the path); the value grammar is exposed as
+ * vg_config_parse_value for tests.
  */
 #include <ctype.h>
 #include <errno.h>
@@ -48,6 +51,14 @@
 #define CFG_TOL_DEFAULT 1e-12
 #define CFG_MAX_BYTES_DEFAULT 4294967296.0 /* 4 GiB */
 #define CFG_DIR_DEFAULT "vibrogate-out"
+#define FIG_WIDTH_MIN 1.0              /* figure width, inches */
+#define FIG_WIDTH_MAX 40.0
+#define FIG_WIDTH_DEFAULT 7.0
+#define FIG_DPI_MIN 50.0               /* PNG resolution, dots per inch */
+#define FIG_DPI_MAX 2400.0
+#define FIG_DPI_DEFAULT 300.0
+#define FIG_FONT_DEFAULT "DejaVu Sans"
+#define FIG_MARK_EXAMPLE "M1: gap 230 meV, reorganization 30 meV"
 
 /* ------------------------------------------------------------------ */
 /* Text spans: a pointer and a length into text that stays alive.     */
@@ -811,60 +822,88 @@ static vg_status parse_scalar(const char *key, const char *value, double *x, spa
     return parse_number(a, key, x, num, unit, err);
 }
 
-static vg_status set_tolerance(vg_config *cfg, int arg, const char *value, int line,
-                               vg_error *err)
+/* A plain number (no unit) from lo to hi; nounit says why a unit is wrong
+ * ("is dimensionless and takes no unit"). */
+static vg_status parse_plain(const char *key, const char *value, const char *nounit, double lo,
+                             double hi, double *out, vg_error *err)
 {
     span num, unit;
     shown b;
     double x;
-    vg_status st = parse_scalar("tolerance", value, &x, &num, &unit, err);
+    vg_status st = parse_scalar(key, value, &x, &num, &unit, err);
 
-    (void)arg;
-    (void)line;
     if (st == VG_OK && unit.n > 0)
-        st = vg_error_set(err, VG_ECONFIG, "'tolerance' is dimensionless and takes no unit "
-                          "(got '%s')", show(span_of(value), &b));
-    if (st == VG_OK && !(x >= CFG_TOL_MIN && x <= CFG_TOL_MAX))
-        st = vg_error_set(err, VG_ECONFIG, "'tolerance' must be between %g and %g (got %s)",
-                          CFG_TOL_MIN, CFG_TOL_MAX, show(num, &b));
+        st = vg_error_set(err, VG_ECONFIG, "'%s' %s (got '%s')", key, nounit,
+                          show(span_of(value), &b));
+    if (st == VG_OK && !(x >= lo && x <= hi))
+        st = vg_error_set(err, VG_ECONFIG, "'%s' must be between %g and %g (got %s)", key, lo,
+                          hi, show(num, &b));
     if (st == VG_OK)
-        cfg->tolerance = x;
+        *out = x;
     return st;
 }
 
-static const struct {
+static vg_status set_tolerance(vg_config *cfg, int arg, const char *value, int line,
+                               vg_error *err)
+{
+    (void)arg;
+    (void)line;
+    return parse_plain("tolerance", value, "is dimensionless and takes no unit", CFG_TOL_MIN,
+                       CFG_TOL_MAX, &cfg->tolerance, err);
+}
+
+/* A unit of a key that is a number and a unit: its size in the key's base. */
+typedef struct {
     const char *name;
-    double bytes;
-} size_units[] = {
+    double factor;
+} scale_unit;
+
+/* A number and one of the units u[0..n) (listed in allowed): *x in the
+ * base of the units, *num the number's text, *which the unit used. */
+static vg_status parse_scaled(const char *key, const char *value, const scale_unit *u, size_t n,
+                              const char *allowed, double *x, span *num, size_t *which,
+                              vg_error *err)
+{
+    span unit;
+    shown b;
+    vg_status st = parse_scalar(key, value, x, num, &unit, err);
+
+    if (st != VG_OK)
+        return st;
+    if (unit.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'%s' needs a unit: %s (got '%s')", key, allowed,
+                            show(*num, &b));
+    for (*which = 0; *which < n; (*which)++)
+        if (span_is(unit, u[*which].name))
+            break;
+    if (*which == n)
+        return vg_error_set(err, VG_ECONFIG, "unknown unit '%s' for '%s' (allowed: %s)",
+                            show(unit, &b), key, allowed);
+    *x *= u[*which].factor;
+    return VG_OK;
+}
+
+static const scale_unit size_units[] = {
     {"bytes", 1.0}, {"B", 1.0}, {"kB", 1e3}, {"MB", 1e6}, {"GB", 1e9}, {"TB", 1e12},
     {"KiB", 1024.0}, {"MiB", 1048576.0}, {"GiB", 1073741824.0}, {"TiB", 1099511627776.0},
 };
 
-#define SIZE_UNITS "bytes, B, kB, MB, GB, TB, KiB, MiB, GiB or TiB"
-
 static vg_status set_max_size(vg_config *cfg, int arg, const char *value, int line,
                               vg_error *err)
 {
-    span num, unit;
+    span num;
     shown b;
     double x;
-    size_t i;
-    vg_status st = parse_scalar("max_size", value, &x, &num, &unit, err);
+    size_t u;
+    vg_status st = parse_scaled("max_size", value, size_units,
+                                sizeof size_units / sizeof size_units[0],
+                                "bytes, B, kB, MB, GB, TB, KiB, MiB, GiB or TiB", &x, &num, &u,
+                                err);
 
     (void)arg;
     (void)line;
     if (st != VG_OK)
         return st;
-    if (unit.n == 0)
-        return vg_error_set(err, VG_ECONFIG, "'max_size' needs a unit: " SIZE_UNITS
-                            " (got '%s')", show(num, &b));
-    for (i = 0; i < sizeof size_units / sizeof size_units[0]; i++)
-        if (span_is(unit, size_units[i].name))
-            break;
-    if (i == sizeof size_units / sizeof size_units[0])
-        return vg_error_set(err, VG_ECONFIG, "unknown unit '%s' for 'max_size' (allowed: "
-                            SIZE_UNITS ")", show(unit, &b));
-    x *= size_units[i].bytes;
     if (!(x >= 1.0) || !isfinite(x))
         return vg_error_set(err, VG_ECONFIG, "'max_size' must be at least 1 byte (got '%s')",
                             show(span_of(value), &b));
@@ -872,27 +911,35 @@ static vg_status set_max_size(vg_config *cfg, int arg, const char *value, int li
     return VG_OK;
 }
 
+/* The index in names[0..n) of item, one entry of the comma list of key;
+ * an empty or unknown item (what it should be: "metric") is an error. */
+static vg_status lookup_name(const char *key, const char *what, span word,
+                             const char *const *names, size_t n, size_t *index, vg_error *err)
+{
+    char h[256];
+    shown b;
+
+    for (*index = 0; *index < n; (*index)++)
+        if (span_is(word, names[*index]))
+            return VG_OK;
+    if (word.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "empty item in the list of '%s' (%s)", key,
+                            hint(h, sizeof h, word, names, n, "", ""));
+    return vg_error_set(err, VG_ECONFIG, "unknown %s '%s' in '%s' (%s)", what, show(word, &b),
+                        key, hint(h, sizeof h, word, names, n, "", ""));
+}
+
 /* A comma list of names from names[0..n): on[i] = 1 for each one listed. */
 static vg_status parse_names(const char *key, const char *what, const char *value,
                              const char *const *names, size_t n, int *on, vg_error *err)
 {
     span_list l;
-    size_t i, j;
-    char h[256];
-    shown b;
+    size_t j;
     vg_status st = split_commas(span_of(value), &l, err);
 
-    for (i = 0; st == VG_OK && i < l.n; i++) {
-        for (j = 0; j < n && !span_is(l.item[i], names[j]); j++)
-            ;
-        if (l.item[i].n == 0)
-            st = vg_error_set(err, VG_ECONFIG, "empty item in the list of '%s' (%s)", key,
-                              hint(h, sizeof h, l.item[i], names, n, "", ""));
-        else if (j == n)
-            st = vg_error_set(err, VG_ECONFIG, "unknown %s '%s' in '%s' (%s)", what,
-                              show(l.item[i], &b), key,
-                              hint(h, sizeof h, l.item[i], names, n, "", ""));
-        else
+    for (size_t i = 0; st == VG_OK && i < l.n; i++) {
+        st = lookup_name(key, what, l.item[i], names, n, &j, err);
+        if (st == VG_OK)
             on[j] = 1;
     }
     free(l.item);
@@ -912,6 +959,12 @@ static vg_status set_data(vg_config *cfg, int arg, const char *value, int line, 
     return st;
 }
 
+static void metric_names(const char *names[VG_N_METRICS])
+{
+    for (int m = 0; m < VG_N_METRICS; m++)
+        names[m] = vg_metric_get((vg_metric_id)m)->name;
+}
+
 static vg_status set_metrics(vg_config *cfg, int arg, const char *value, int line,
                              vg_error *err)
 {
@@ -921,11 +974,334 @@ static vg_status set_metrics(vg_config *cfg, int arg, const char *value, int lin
 
     (void)arg;
     (void)line;
-    for (int m = 0; m < VG_N_METRICS; m++)
-        names[m] = vg_metric_get((vg_metric_id)m)->name;
+    metric_names(names);
     st = parse_names("metrics", "metric", value, names, VG_N_METRICS, on, err);
     if (st == VG_OK)
         memcpy(cfg->metric_on, on, sizeof on);
+    return st;
+}
+
+/* ------------------------------------------------------------------ */
+/* Figure keys of [output] (docs/config.md, "Figures").              */
+
+/* Each figure key is checked here on its own; how the keys fit the grid
+ * and each other is checked with the whole (check_figures). */
+
+/* The parameter keys, in vg_param_id order. */
+static void param_names(const char *names[VG_NPARAM])
+{
+    for (int p = 0; p < VG_NPARAM; p++)
+        names[p] = params[p].info.key;
+}
+
+static vg_status set_figures(vg_config *cfg, int arg, const char *value, int line,
+                             vg_error *err)
+{
+    static const char *const names[] = {"png", "pdf", "svg", "none"};
+    int on[4] = {0, 0, 0, 0};
+    shown b;
+    vg_status st = parse_names("figures", "figure format", value, names, 4, on, err);
+
+    (void)arg;
+    (void)line;
+    if (st == VG_OK && on[3] && (on[0] || on[1] || on[2]))
+        st = vg_error_set(err, VG_ECONFIG, "'figures' takes 'none' or a list of formats, not "
+                          "both (got '%s')", show(span_of(value), &b));
+    if (st == VG_OK)
+        cfg->fig.formats = (on[0] ? VG_FIG_PNG : 0u) | (on[1] ? VG_FIG_PDF : 0u) |
+                           (on[2] ? VG_FIG_SVG : 0u);
+    return st;
+}
+
+/* Has list[0..n) the metric m already? */
+static int listed(const vg_metric_id *list, size_t n, size_t m)
+{
+    for (size_t i = 0; i < n; i++)
+        if ((size_t)list[i] == m)
+            return 1;
+    return 0;
+}
+
+static vg_status set_maps(vg_config *cfg, int arg, const char *value, int line, vg_error *err)
+{
+    const char *names[VG_N_METRICS];
+    vg_metric_id maps[VG_N_METRICS];
+    span_list l;
+    size_t n = 0, m;
+    vg_status st = split_commas(span_of(value), &l, err);
+
+    (void)arg;
+    (void)line;
+    metric_names(names);
+    for (size_t i = 0; st == VG_OK && i < l.n; i++) {
+        st = lookup_name("maps", "metric", l.item[i], names, VG_N_METRICS, &m, err);
+        if (st == VG_OK && listed(maps, n, m))
+            st = vg_error_set(err, VG_ECONFIG, "metric '%s' appears twice in 'maps'", names[m]);
+        else if (st == VG_OK)
+            maps[n++] = (vg_metric_id)m;
+    }
+    free(l.item);
+    if (st == VG_OK) {
+        memcpy(cfg->fig.maps, maps, n * sizeof maps[0]);
+        cfg->fig.nmaps = n;
+    }
+    return st;
+}
+
+/* The parameter named by value (one key, or "none" when allow_none: -1). */
+static vg_status parse_param_key(const char *key, const char *value, int allow_none, int *id,
+                                 vg_error *err)
+{
+    const char *names[VG_NPARAM + 1];
+    span a = span_of(value);
+    size_t p;
+    shown b;
+    vg_status st;
+
+    param_names(names);
+    names[VG_NPARAM] = "none";
+    if (a.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'%s' has no value", key);
+    if (span_find(a, ",") < a.n)
+        return vg_error_set(err, VG_ECONFIG, "'%s' takes a single value (got '%s')", key,
+                            show(a, &b));
+    st = lookup_name(key, "parameter", a, names, VG_NPARAM + (allow_none != 0), &p, err);
+    if (st == VG_OK)
+        *id = p == VG_NPARAM ? -1 : (int)p;
+    return st;
+}
+
+/* The four roles a parameter can take in a figure; arg of set_role. */
+typedef enum { ROLE_X, ROLE_Y, ROLE_PANELS, ROLE_ROWS, N_ROLES } figure_role;
+
+static const char *const role_names[N_ROLES] = {"x", "y", "panels", "rows"};
+
+/* x, y (a parameter), panels, rows (a parameter or "none"). */
+static vg_status set_role(vg_config *cfg, int arg, const char *value, int line, vg_error *err)
+{
+    int id = 0;
+    vg_status st = parse_param_key(role_names[arg], value, arg >= ROLE_PANELS, &id, err);
+
+    (void)line;
+    if (st != VG_OK)
+        return st;
+    if (arg == ROLE_X)
+        cfg->fig.x = (vg_param_id)id;
+    else if (arg == ROLE_Y)
+        cfg->fig.y = (vg_param_id)id;
+    else if (arg == ROLE_PANELS)
+        cfg->fig.panels = id;
+    else
+        cfg->fig.rows = id;
+    return VG_OK;
+}
+
+/* 1 in = 2.54 cm exactly (international inch, 1959); 1 pt = 1/72 in (the
+ * PostScript point, cairo's unit for PDF and SVG surfaces; common practice). */
+static const scale_unit width_units[] = {
+    {"in", 1.0}, {"cm", 1.0 / 2.54}, {"mm", 1.0 / 25.4}, {"pt", 1.0 / 72.0},
+};
+
+static vg_status set_width(vg_config *cfg, int arg, const char *value, int line, vg_error *err)
+{
+    span num;
+    double x;
+    size_t u;
+    char got[2 * CFG_NUM_MAX];
+    vg_status st = parse_scaled("width", value, width_units,
+                                sizeof width_units / sizeof width_units[0], "in, cm, mm or pt",
+                                &x, &num, &u, err);
+
+    (void)arg;
+    (void)line;
+    if (st != VG_OK)
+        return st;
+    if (x >= FIG_WIDTH_MIN && x <= FIG_WIDTH_MAX) {
+        cfg->fig.width_in = x;
+        return VG_OK;
+    }
+    if (u == 0)
+        snprintf(got, sizeof got, "%.*s in", (int)num.n, num.s);
+    else
+        snprintf(got, sizeof got, "%.*s %s = %.6g in", (int)num.n, num.s, width_units[u].name, x);
+    return vg_error_set(err, VG_ECONFIG, "'width' must be between %g and %g in (got %s)",
+                        FIG_WIDTH_MIN, FIG_WIDTH_MAX, got);
+}
+
+static vg_status set_dpi(vg_config *cfg, int arg, const char *value, int line, vg_error *err)
+{
+    (void)arg;
+    (void)line;
+    return parse_plain("dpi", value, "is in dots per inch and takes no unit", FIG_DPI_MIN,
+                       FIG_DPI_MAX, &cfg->fig.dpi, err);
+}
+
+static vg_status set_font(vg_config *cfg, int arg, const char *value, int line, vg_error *err)
+{
+    span a = span_of(value);
+    shown b;
+
+    (void)arg;
+    (void)line;
+    if (a.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'font' needs a font family name, such as '%s'",
+                            FIG_FONT_DEFAULT);
+    if (a.n >= sizeof cfg->fig.font)
+        return vg_error_set(err, VG_ECONFIG, "'font' is %zu bytes long, the limit is %zu bytes "
+                            "(got '%s')", a.n, sizeof cfg->fig.font - 1, show(a, &b));
+    memcpy(cfg->fig.font, a.s, a.n + 1); /* the control characters were refused with the line */
+    return VG_OK;
+}
+
+/* One contour level: a plain number, +0 for a negative zero. */
+static vg_status parse_level(span a, double *level, vg_error *err)
+{
+    span num, rest;
+    shown b;
+    vg_status st;
+
+    if (a.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "empty item in the list of 'contours'");
+    st = parse_number(a, "contours", level, &num, &rest, err);
+    if (st == VG_OK && rest.n > 0)
+        st = vg_error_set(err, VG_ECONFIG, "'contours' is in the units of the mapped metric and "
+                          "takes no unit (got '%s')", show(a, &b));
+    if (st == VG_OK && *level == 0.0)
+        *level = 0.0;
+    return st;
+}
+
+static vg_status set_contours(vg_config *cfg, int arg, const char *value, int line,
+                              vg_error *err)
+{
+    double v[VG_MAX_CONTOURS];
+    span a = span_of(value);
+    span_list l = {NULL, 0};
+    shown b;
+    vg_status st = VG_OK;
+
+    (void)arg;
+    (void)line;
+    if (a.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'contours' has no value");
+    if (!span_is(a, "none"))
+        st = split_commas(a, &l, err);
+    if (st == VG_OK && l.n > VG_MAX_CONTOURS)
+        st = vg_error_set(err, VG_ECONFIG, "'contours' has %zu levels, more than the limit of %d",
+                          l.n, VG_MAX_CONTOURS);
+    for (size_t i = 0; st == VG_OK && i < l.n; i++)
+        st = parse_level(l.item[i], &v[i], err);
+    if (st == VG_OK && !strictly_monotonic(v, l.n))
+        st = vg_error_set(err, VG_ECONFIG, "the values of 'contours' must all differ and be in "
+                          "increasing or decreasing order (got '%s')", show(a, &b));
+    if (st == VG_OK) {
+        memcpy(cfg->fig.contours, v, l.n * sizeof v[0]);
+        cfg->fig.ncontours = l.n;
+    }
+    free(l.item);
+    return st;
+}
+
+/* "parameter value unit", one item of a mark, into m. */
+static vg_status parse_mark_item(span a, vg_mark *m, vg_error *err)
+{
+    const char *names[VG_NPARAM];
+    span key = first_word(a), rest = span_trim(span_tail(a, key.n));
+    size_t p;
+    item it;
+    shown b;
+    vg_status st;
+
+    param_names(names);
+    if (a.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "empty item in the list of 'mark'");
+    st = lookup_name("mark", "parameter", key, names, VG_NPARAM, &p, err);
+    if (st != VG_OK)
+        return st;
+    if (rest.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'%s' in 'mark' has no value", names[p]);
+    if (span_find(rest, "..") < rest.n)
+        return vg_error_set(err, VG_ECONFIG, "'%s' in 'mark' takes a single value (got '%s')",
+                            names[p], show(rest, &b));
+    if (m->has[p])
+        return vg_error_set(err, VG_ECONFIG, "'%s' is given twice in mark '%s'", names[p],
+                            m->label);
+    st = parse_item(&params[p], rest, &it, err);
+    if (st == VG_OK)
+        st = resolve_units(&params[p], &it, 1, err);
+    if (st == VG_OK)
+        st = check_item(&params[p], &it, err);
+    if (st == VG_OK) {
+        m->v[p] = item_value(&it);
+        m->has[p] = 1;
+    }
+    return st;
+}
+
+/* "label: parameter value unit, ..." into m. */
+static vg_status parse_mark(span a, vg_mark *m, vg_error *err)
+{
+    size_t colon = span_find(a, ":");
+    span label = span_trim(span_part(a, 0, colon));
+    span_list l = {NULL, 0};
+    shown b;
+    vg_status st;
+
+    if (colon == a.n)
+        return vg_error_set(err, VG_ECONFIG, "'mark' needs a label, ':' and parameter values, "
+                            "as in '%s' (got '%s')", FIG_MARK_EXAMPLE, show(a, &b));
+    if (label.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'mark' needs a label before ':', as in '%s' "
+                            "(got '%s')", FIG_MARK_EXAMPLE, show(a, &b));
+    if (label.n >= sizeof m->label)
+        return vg_error_set(err, VG_ECONFIG, "the label of 'mark' is %zu bytes long, the limit "
+                            "is %zu bytes (got '%s')", label.n, sizeof m->label - 1,
+                            show(label, &b));
+    memcpy(m->label, label.s, label.n);
+    m->label[label.n] = '\0';
+    st = split_commas(span_trim(span_tail(a, colon + 1)), &l, err);
+    if (st == VG_OK && l.n == 1 && l.item[0].n == 0)
+        st = vg_error_set(err, VG_ECONFIG, "mark '%s' needs at least one parameter value after "
+                          "':', as in '%s'", m->label, FIG_MARK_EXAMPLE);
+    for (size_t i = 0; st == VG_OK && i < l.n; i++)
+        st = parse_mark_item(l.item[i], m, err);
+    free(l.item);
+    return st;
+}
+
+/* A label already used by one of the marks so far is an error. */
+static vg_status check_label(const vg_figure_spec *f, const char *label, vg_error *err)
+{
+    for (size_t i = 0; i < f->nmarks; i++) {
+        if (strcmp(f->marks[i].label, label) != 0)
+            continue;
+        if (f->marks[i].line < 0)
+            return vg_error_set(err, VG_ECONFIG, "mark '%s' appears twice (first in --set "
+                                "output.mark)", label);
+        return vg_error_set(err, VG_ECONFIG, "mark '%s' appears twice (first at line %d)", label,
+                            f->marks[i].line);
+    }
+    return VG_OK;
+}
+
+/* The one key that may repeat: each line (or --set) adds a mark. */
+static vg_status set_mark(vg_config *cfg, int arg, const char *value, int line, vg_error *err)
+{
+    vg_figure_spec *f = &cfg->fig;
+    vg_mark m;
+    vg_status st;
+
+    (void)arg;
+    if (f->nmarks == VG_MAX_MARKS)
+        return vg_error_set(err, VG_ECONFIG, "'mark' is given more than %d times (the limit is "
+                            "%d marks)", VG_MAX_MARKS, VG_MAX_MARKS);
+    memset(&m, 0, sizeof m);
+    m.line = line;
+    st = parse_mark(span_of(value), &m, err);
+    if (st == VG_OK)
+        st = check_label(f, m.label, err);
+    if (st == VG_OK)
+        f->marks[f->nmarks++] = m;
     return st;
 }
 
@@ -962,6 +1338,17 @@ static const key_def keys[] = {
     {SEC_OUTPUT, "data", set_data, 0},
     {SEC_OUTPUT, "metrics", set_metrics, 0},
     {SEC_OUTPUT, "max_size", set_max_size, 0},
+    {SEC_OUTPUT, "figures", set_figures, 0},
+    {SEC_OUTPUT, "maps", set_maps, 0},
+    {SEC_OUTPUT, "x", set_role, ROLE_X},
+    {SEC_OUTPUT, "y", set_role, ROLE_Y},
+    {SEC_OUTPUT, "panels", set_role, ROLE_PANELS},
+    {SEC_OUTPUT, "rows", set_role, ROLE_ROWS},
+    {SEC_OUTPUT, "width", set_width, 0},
+    {SEC_OUTPUT, "dpi", set_dpi, 0},
+    {SEC_OUTPUT, "font", set_font, 0},
+    {SEC_OUTPUT, "contours", set_contours, 0},
+    {SEC_OUTPUT, "mark", set_mark, 0},
 };
 
 #define N_KEYS (sizeof keys / sizeof keys[0])
@@ -1194,7 +1581,7 @@ static int on_pair(void *user, const char *section, const char *name, const char
         st = vg_error_set(ld->err, VG_ECONFIG, "missing key before '='");
     else if (k < 0)
         st = unknown_key(sec, key, ld->err);
-    else if (ld->key_line[k] > 0)
+    else if (ld->key_line[k] > 0 && keys[k].set != set_mark)
         st = vg_error_set(ld->err, VG_ECONFIG, "duplicate key '%s' in [%s] (first set at line "
                           "%d)", name, section, ld->key_line[k]);
     else
@@ -1344,12 +1731,10 @@ static vg_status apply_set(loader *ld, const char *arg)
 /* ------------------------------------------------------------------ */
 /* Checks of the whole configuration.                                 */
 
-/* Prefix the message with where key was set: its line, its --set, or
- * (key < 0 or not set) the [parameters] header, line 1 without one. */
-static vg_status locate(loader *ld, int key, vg_status st)
+/* Prefix the message with where key was set: line (> 0), its --set (< 0),
+ * or (0) the [parameters] header, line 1 without one. */
+static vg_status locate_line(loader *ld, int key, int line, vg_status st)
 {
-    int line = key >= 0 ? ld->key_line[key] : 0;
-
     if (line < 0) {
         vg_error_prefix(ld->err, "--set %s.%s: ", section_names[keys[key].section],
                         keys[key].key);
@@ -1359,6 +1744,12 @@ static vg_status locate(loader *ld, int key, vg_status st)
         line = ld->section_line[SEC_PARAMETERS] ? ld->section_line[SEC_PARAMETERS] : 1;
     vg_error_prefix(ld->err, "%s:%d: ", ld->path, line);
     return st;
+}
+
+/* The same at the line that set key (key < 0: none). */
+static vg_status locate(loader *ld, int key, vg_status st)
+{
+    return locate_line(ld, key, key >= 0 ? ld->key_line[key] : 0, st);
 }
 
 static vg_status use_default(loader *ld, vg_param_id id)
@@ -1403,6 +1794,156 @@ static vg_status check_grid(loader *ld)
                                est, lim));
 }
 
+/* ------------------------------------------------------------------ */
+/* Checks of the figure keys against the final grid.                  */
+
+static int output_key(const char *name)
+{
+    return find_key(SEC_OUTPUT, span_of(name));
+}
+
+static int is_axis(const vg_config *cfg, int p)
+{
+    return p >= 0 && p < VG_NPARAM && cfg->param[p].n > 1;
+}
+
+/* The axes as "gap, reorganization" ("none" without any); their number. */
+static size_t axis_list(const vg_config *cfg, char *buf, size_t size)
+{
+    size_t n = 0, used = 0;
+
+    buf[0] = '\0';
+    for (int p = 0; p < VG_NPARAM; p++)
+        if (is_axis(cfg, p) && used < size)
+            used += (size_t)snprintf(buf + used, size - used, "%s%s", n++ ? ", " : "",
+                                     params[p].info.key);
+    if (n == 0)
+        snprintf(buf, size, "none");
+    return n;
+}
+
+/* The fastest axis other than avoid (the grid's order: gap fastest, then by
+ * parameter number); without one, the first parameter other than avoid. */
+static vg_param_id fastest_axis(const vg_config *cfg, int avoid)
+{
+    for (int p = 0; p < VG_NPARAM; p++)
+        if (p != avoid && is_axis(cfg, p))
+            return (vg_param_id)p;
+    return avoid == VG_P_GAP ? VG_P_REORG : VG_P_GAP;
+}
+
+/* x and y not given: the fastest axes (gap and reorganization when both
+ * are axes), avoiding the other one when it was given. */
+static void default_axes(loader *ld)
+{
+    vg_figure_spec *f = &ld->cfg->fig;
+    int x_set = ld->key_line[output_key("x")] != 0, y_set = ld->key_line[output_key("y")] != 0;
+
+    if (!x_set)
+        f->x = fastest_axis(ld->cfg, y_set ? (int)f->y : -1);
+    if (!y_set)
+        f->y = fastest_axis(ld->cfg, (int)f->x);
+}
+
+/* Figures are drawn from sweep.nc: it must be written, with every map. */
+static vg_status check_sources(loader *ld)
+{
+    const vg_config *cfg = ld->cfg;
+    const vg_figure_spec *f = &cfg->fig;
+    int maps_key = output_key("maps");
+
+    if (!(cfg->formats & VG_FMT_NETCDF))
+        return locate(ld, output_key("figures"),
+                      vg_error_set(ld->err, VG_ECONFIG, "'figures' needs 'netcdf' in 'data' "
+                                   "(figures are drawn from sweep.nc)"));
+    for (size_t i = 0; i < f->nmaps; i++)
+        if (!cfg->metric_on[f->maps[i]])
+            return locate(ld, ld->key_line[maps_key] ? maps_key : output_key("metrics"),
+                          vg_error_set(ld->err, VG_ECONFIG, "'maps' needs '%s' in 'metrics' "
+                                       "(figures are drawn from sweep.nc)",
+                                       vg_metric_get(f->maps[i])->name));
+    return VG_OK;
+}
+
+/* x, y, panels, rows: each one given must be an axis, and all differ. */
+static vg_status check_roles(loader *ld)
+{
+    static const char *const others[N_ROLES] = {"", "'x'", "'x' and 'y'",
+                                                "'x', 'y' and 'panels'"};
+    const vg_figure_spec *f = &ld->cfg->fig;
+    const int v[N_ROLES] = {(int)f->x, (int)f->y, f->panels, f->rows};
+    char axes[128];
+
+    axis_list(ld->cfg, axes, sizeof axes);
+    for (int r = 0; r < N_ROLES; r++) {
+        const char *name = role_names[r];
+        int key = output_key(name);
+        if (r == ROLE_ROWS && v[ROLE_ROWS] >= 0 && v[ROLE_PANELS] < 0)
+            return locate(ld, key, vg_error_set(ld->err, VG_ECONFIG, "'rows' needs 'panels' too "
+                                                "(rows arrange the panels of a figure)"));
+        if (v[r] < 0)
+            continue;
+        if (!is_axis(ld->cfg, v[r]))
+            return locate(ld, key, vg_error_set(ld->err, VG_ECONFIG, "'%s' must name an axis of "
+                                                "the grid (got '%s', a single value; axes: %s)",
+                                                name, params[v[r]].info.key, axes));
+        for (int q = 0; q < r; q++)
+            if (v[q] == v[r])
+                return locate(ld, key, vg_error_set(ld->err, VG_ECONFIG, "'%s' must differ from "
+                                                    "%s (got '%s', which is '%s')", name,
+                                                    others[r], params[v[r]].info.key,
+                                                    role_names[q]));
+    }
+    return VG_OK;
+}
+
+/* A mark fixing the parameter of a log axis (x or y) must be > 0 there,
+ * or it would have no place on the map. */
+static vg_status check_marks(loader *ld)
+{
+    const vg_config *cfg = ld->cfg;
+    const vg_figure_spec *f = &cfg->fig;
+    const vg_param_id axis[2] = {f->x, f->y};
+
+    for (size_t i = 0; i < f->nmarks; i++) {
+        const vg_mark *m = &f->marks[i];
+        for (int a = 0; a < 2; a++) {
+            const param_spec *ps = &params[axis[a]];
+            if (!cfg->param[axis[a]].log_spacing || !m->has[axis[a]] || m->v[axis[a]] > 0.0)
+                continue;
+            return locate_line(ld, output_key("mark"), m->line, vg_error_set(ld->err,
+                               VG_ECONFIG, "mark '%s' needs '%s' > 0 to be placed on the log "
+                               "axis '%s' (got %g%s%s)", m->label, ps->info.key, a ? "y" : "x",
+                               m->v[axis[a]], ps->kind == KIND_NONE ? "" : " ",
+                               ps->kind == KIND_NONE ? "" : ps->info.unit));
+        }
+    }
+    return VG_OK;
+}
+
+/* With figures asked for: their source, two axes at least, the roles. */
+static vg_status check_figures(loader *ld)
+{
+    char axes[128];
+    size_t naxes = axis_list(ld->cfg, axes, sizeof axes);
+    vg_status st;
+
+    default_axes(ld);
+    if (ld->cfg->fig.formats == 0)
+        return VG_OK;
+    st = check_sources(ld);
+    if (st == VG_OK && naxes < 2)
+        st = locate(ld, output_key("figures"),
+                    vg_error_set(ld->err, VG_ECONFIG, "figures need at least two axes "
+                                 "(parameters with more than one value); the grid has %zu",
+                                 naxes));
+    if (st == VG_OK)
+        st = check_roles(ld);
+    if (st == VG_OK)
+        st = check_marks(ld);
+    return st;
+}
+
 static vg_status finish(loader *ld)
 {
     vg_status st = VG_OK;
@@ -1412,6 +1953,8 @@ static vg_status finish(loader *ld)
             st = use_default(ld, (vg_param_id)p);
     if (st == VG_OK)
         st = check_grid(ld);
+    if (st == VG_OK)
+        st = check_figures(ld);
     return st;
 }
 
@@ -1436,6 +1979,22 @@ static char *join_sets(size_t nset, const char *const *sets)
     return s;
 }
 
+/* No figures; when asked for, the defaults of docs/config.md ("Figures").
+ * x and y are settled by default_axes once the grid is known. */
+static void figure_init(vg_figure_spec *f)
+{
+    f->formats = 0;
+    f->nmaps = 1;
+    f->maps[0] = VG_M_LOG10_RATIO;
+    f->x = VG_P_GAP;
+    f->y = VG_P_REORG;
+    f->panels = -1;
+    f->rows = -1;
+    f->width_in = FIG_WIDTH_DEFAULT;
+    f->dpi = FIG_DPI_DEFAULT;
+    snprintf(f->font, sizeof f->font, "%s", FIG_FONT_DEFAULT);
+}
+
 /* Everything but the parameters at its default. */
 static vg_status config_init(vg_config *cfg, const char *path, size_t nset,
                              const char *const *sets, vg_error *err)
@@ -1452,13 +2011,32 @@ static vg_status config_init(vg_config *cfg, const char *path, size_t nset,
     cfg->max_bytes = CFG_MAX_BYTES_DEFAULT;
     for (int m = 0; m < VG_N_METRICS; m++)
         cfg->metric_on[m] = 1;
+    figure_init(&cfg->fig);
     if (!cfg->path || !cfg->title || !cfg->notes || !cfg->out_dir || (nset && !cfg->overrides))
         return no_memory(err);
     return VG_OK;
 }
 
-vg_status vg_config_load(vg_config *cfg, const char *path, size_t nset,
-                         const char *const *sets, vg_error *err)
+/* A copy of text into *out, at most CFG_FILE_MAX bytes, like read_file. */
+static vg_status copy_text(const char *name, const char *text, char **out, size_t *len,
+                           vg_error *err)
+{
+    span a = span_of(text ? text : "");
+
+    if (a.n > CFG_FILE_MAX)
+        return vg_error_set(err, VG_ECONFIG, "%s: config text is larger than the limit of %d "
+                            "bytes", name, CFG_FILE_MAX);
+    *out = dup_span(a);
+    if (!*out)
+        return no_memory(err);
+    *len = a.n;
+    return VG_OK;
+}
+
+/* The file at path (from_file) or the text itself, named name in messages:
+ * read or copied into cfg->text, parsed, overridden and checked whole. */
+static vg_status load(vg_config *cfg, const char *name, const char *text, int from_file,
+                      size_t nset, const char *const *sets, vg_error *err)
 {
     loader ld;
     size_t len = 0;
@@ -1467,10 +2045,12 @@ vg_status vg_config_load(vg_config *cfg, const char *path, size_t nset,
     memset(&ld, 0, sizeof ld);
     ld.cfg = cfg;
     ld.err = err;
-    ld.path = path;
-    st = config_init(cfg, path, nset, sets, err);
-    if (st == VG_OK)
-        st = read_file(path, &cfg->text, &len, err);
+    ld.path = name;
+    st = config_init(cfg, name, nset, sets, err);
+    if (st == VG_OK && from_file)
+        st = read_file(name, &cfg->text, &len, err);
+    else if (st == VG_OK)
+        st = copy_text(name, text, &cfg->text, &len, err);
     if (st == VG_OK)
         st = parse_text(&ld, len);
     for (size_t i = 0; st == VG_OK && i < nset; i++)
@@ -1480,6 +2060,18 @@ vg_status vg_config_load(vg_config *cfg, const char *path, size_t nset,
     if (st != VG_OK)
         vg_config_free(cfg);
     return st;
+}
+
+vg_status vg_config_load(vg_config *cfg, const char *path, size_t nset,
+                         const char *const *sets, vg_error *err)
+{
+    return load(cfg, path, NULL, 1, nset, sets, err);
+}
+
+vg_status vg_config_load_text(vg_config *cfg, const char *name, const char *text,
+                              size_t nset, const char *const *sets, vg_error *err)
+{
+    return load(cfg, name, text, 0, nset, sets, err);
 }
 
 void vg_config_free(vg_config *cfg)

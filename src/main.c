@@ -38,6 +38,8 @@ static void usage(FILE *f)
           "  sweep CONFIG   compute every grid point; write sweep.nc and/or sweep.csv\n"
           "  point CONFIG   one operating point (all parameters scalar): channels, metrics\n"
           "  check CONFIG   validate; print resolved parameters, grid shape and output size\n"
+          "  render DATA    redraw the figures from a saved sweep.nc (no recomputation)\n"
+          "  spectrum CONFIG  rate against gap, channel by channel, for one receptor and odorant\n"
           "\n"
           "Options:\n"
           "  -o, --out DIR          output directory (overrides [output] directory)\n"
@@ -118,6 +120,10 @@ static command_fn find_command(const char *name)
         return vg_cmd_point;
     if (strcmp(name, "check") == 0)
         return vg_cmd_check;
+    if (strcmp(name, "render") == 0)
+        return vg_cmd_render;
+    if (strcmp(name, "spectrum") == 0)
+        return vg_cmd_spectrum;
     return NULL;
 }
 
@@ -174,16 +180,16 @@ int main(int argc, char **argv)
     if (rc != 0)
         goto out;
     if (optind >= argc) {
-        rc = usage_error("%s", "missing command (sweep, point or check)");
+        rc = usage_error("%s", "missing command (sweep, point, check, render or spectrum)");
         goto out;
     }
     cmd = find_command(argv[optind]);
     if (!cmd) {
-        rc = usage_error("unknown command '%s' (expected sweep, point or check)", argv[optind]);
+        rc = usage_error("unknown command '%s' (expected sweep, point, check, render or spectrum)", argv[optind]);
         goto out;
     }
     if (optind + 2 != argc) {
-        rc = usage_error("'%s' takes exactly one CONFIG file", argv[optind]);
+        rc = usage_error("'%s' takes exactly one file argument", argv[optind]);
         goto out;
     }
     a.config = argv[optind + 1];

@@ -667,7 +667,7 @@ static void test_file_errors(void **state)
     } c[] = {
         {"gap = 1 meV\n", "@FILE@:1: key 'gap' comes before any section header (it belongs "
                           "in [parameters])"},
-        {"x = 1\n", "@FILE@:1: key 'x' comes before any section header (start with "
+        {"q = 1\n", "@FILE@:1: key 'q' comes before any section header (start with "
                     "[scenario], [parameters], [model] or [output])"},
         {"[paramters]\n", "@FILE@:1: unknown section '[paramters]' (did you mean "
                           "'[parameters]'?)"},
@@ -857,6 +857,598 @@ static void test_max_size_raise(void **state)
 }
 
 /* ------------------------------------------------------------------ */
+/* Figure keys of [output].                                           */
+
+/* A grid with four axes (gap, reorganization, electronic_coupling, mode)
+ * and two scalars; [output] opens at line 8, so its first key is line 9. */
+#define FIG_GRID                                                                          \
+    "[parameters]\n"                                                                      \
+    "gap = 0 .. 600 meV, 7 points\n"                                                      \
+    "reorganization = 10 .. 300 meV, 5 points, log\n"                                     \
+    "electronic_coupling = 1, 2 meV\n"                                                    \
+    "huang_rhys = 0.05\n"                                                                 \
+    "mode = 1720, 2950 cm-1\n"                                                            \
+    "temperature = 310 K\n"                                                               \
+    "[output]\n"
+
+/* The four axes, as listed in messages (grid order, fastest first). */
+#define FIG_AXES "gap, reorganization, electronic_coupling, mode"
+
+/* The example of a mark in the messages (docs/config.md). */
+#define MARK_EXAMPLE "M1: gap 230 meV, reorganization 30 meV"
+
+/* Without figure keys: no figures, and the documented defaults. */
+static void test_figure_defaults(void **state)
+{
+    vg_config cfg;
+    vg_error err;
+    const vg_figure_spec *f = &cfg.fig;
+
+    (void)state;
+    load_text(&cfg, FIG_GRID, 0, NULL, VG_OK, &err);
+    assert_int_equal(f->formats, 0);
+    assert_int_equal(f->nmaps, 1);
+    assert_int_equal(f->maps[0], VG_M_LOG10_RATIO);
+    assert_int_equal(f->x, VG_P_GAP);
+    assert_int_equal(f->y, VG_P_REORG);
+    assert_int_equal(f->panels, -1);
+    assert_int_equal(f->rows, -1);
+    assert_true(f->width_in == 7.0);
+    assert_true(f->dpi == 300.0);
+    assert_string_equal(f->font, "DejaVu Sans");
+    assert_int_equal(f->ncontours, 0);
+    assert_int_equal(f->nmarks, 0);
+    vg_config_free(&cfg);
+
+    /* No axes and no figures: accepted, x and y still gap and reorganization. */
+    load_text(&cfg, minimal, 0, NULL, VG_OK, &err);
+    assert_int_equal(f->formats, 0);
+    assert_int_equal(f->x, VG_P_GAP);
+    assert_int_equal(f->y, VG_P_REORG);
+    vg_config_free(&cfg);
+}
+
+/* Default x and y: the two fastest axes in grid order (gap, reorganization,
+ * electronic_coupling, huang_rhys, mode, temperature), avoiding the one
+ * given when only one is. */
+static void test_figure_default_axes(void **state)
+{
+    static const struct {
+        const char *params; /* the [parameters] lines after gap and reorganization */
+        const char *keys;   /* [output] keys */
+        vg_param_id x, y;
+    } c[] = {
+        {"huang_rhys = 0.05\nmode = 1720, 2950 cm-1\ntemperature = 250, 300 K\n", "",
+         VG_P_MODE, VG_P_TEMPERATURE},
+        {"huang_rhys = 0.01, 0.1\nmode = 200 meV\ntemperature = 250, 300 K\n", "",
+         VG_P_HUANG_RHYS, VG_P_TEMPERATURE},
+        {"huang_rhys = 0.01, 0.1\nelectronic_coupling = 1, 2 meV\nmode = 200 meV\n", "",
+         VG_P_COUPLING, VG_P_HUANG_RHYS},
+        {"huang_rhys = 0.01, 0.1\nmode = 1720, 2950 cm-1\n", "x = mode\n", VG_P_MODE,
+         VG_P_HUANG_RHYS},
+        {"huang_rhys = 0.01, 0.1\nmode = 1720, 2950 cm-1\n", "y = huang_rhys\n", VG_P_MODE,
+         VG_P_HUANG_RHYS},
+        {"huang_rhys = 0.01, 0.1\nmode = 1720, 2950 cm-1\n", "y = mode\n", VG_P_HUANG_RHYS,
+         VG_P_MODE},
+    };
+    (void)state;
+    for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
+        char text[1024];
+        vg_config cfg;
+        vg_error err;
+        snprintf(text, sizeof text, "[parameters]\ngap = 250 meV\nreorganization = 30 meV\n"
+                 "%s[output]\nfigures = png\n%s", c[i].params, c[i].keys);
+        load_text(&cfg, text, 0, NULL, VG_OK, &err);
+        assert_int_equal(cfg.fig.formats, VG_FIG_PNG);
+        if (cfg.fig.x != c[i].x || cfg.fig.y != c[i].y)
+            fail_msg("case %zu: x %d, y %d; wanted %d, %d", i, cfg.fig.x, cfg.fig.y, c[i].x,
+                     c[i].y);
+        vg_config_free(&cfg);
+    }
+}
+
+/* Every figure key, with the values converted as documented. */
+static void test_figure_keys(void **state)
+{
+    static const char text[] = FIG_GRID
+        "figures = svg, png\n"
+        "maps = log10_k_total, log10_ratio, assisted_fraction\n"
+        "x = reorganization\n"
+        "y = gap\n"
+        "panels = mode\n"
+        "rows = electronic_coupling\n"
+        "width = 17.8 cm\n"
+        "dpi = 612.5\n"
+        "font = Noto Sans CJK JP\n"
+        "contours = 1.5, 0, -2.25\n"
+        "mark = HR-12 (C=O): gap 0.23 eV, reorganization 30 meV, mode 1720 cm-1\n"
+        "mark = cold:temperature 77 K,huang_rhys 0.12\n"
+        "mark = \xCE\xB5 \xE2\x89\x88 \xCE\xBB: gap 30 meV, reorganization 30 meV\n";
+    vg_config cfg;
+    vg_error err;
+    const vg_figure_spec *f = &cfg.fig;
+
+    (void)state;
+    load_text(&cfg, text, 0, NULL, VG_OK, &err);
+    assert_int_equal(f->formats, VG_FIG_PNG | VG_FIG_SVG);
+    assert_int_equal(f->nmaps, 3);
+    assert_int_equal(f->maps[0], VG_M_LOG10_K_TOTAL); /* in the order given */
+    assert_int_equal(f->maps[1], VG_M_LOG10_RATIO);
+    assert_int_equal(f->maps[2], VG_M_ASSISTED_FRACTION);
+    assert_int_equal(f->x, VG_P_REORG);
+    assert_int_equal(f->y, VG_P_GAP);
+    assert_int_equal(f->panels, VG_P_MODE);
+    assert_int_equal(f->rows, VG_P_COUPLING);
+    assert_rel(f->width_in, 17.8 / 2.54, DBL_EPSILON); /* 1 in = 2.54 cm exactly (1959) */
+    assert_true(f->dpi == 612.5);
+    assert_string_equal(f->font, "Noto Sans CJK JP");
+    assert_int_equal(f->ncontours, 3);
+    assert_true(f->contours[0] == 1.5 && f->contours[1] == 0.0 && f->contours[2] == -2.25);
+    assert_int_equal(f->nmarks, 3);
+    assert_string_equal(f->marks[0].label, "HR-12 (C=O)");
+    assert_int_equal(f->marks[0].line, 19);
+    assert_true(f->marks[0].has[VG_P_GAP] && f->marks[0].v[VG_P_GAP] == 230.0);
+    assert_true(f->marks[0].has[VG_P_REORG] && f->marks[0].v[VG_P_REORG] == 30.0);
+    assert_true(f->marks[0].has[VG_P_MODE]);
+    assert_rel(f->marks[0].v[VG_P_MODE], 1720 * EXACT_MEV_PER_CM1, EXACT_TOL);
+    assert_false(f->marks[0].has[VG_P_COUPLING] || f->marks[0].has[VG_P_HUANG_RHYS] ||
+                 f->marks[0].has[VG_P_TEMPERATURE]);
+    assert_string_equal(f->marks[1].label, "cold");
+    assert_int_equal(f->marks[1].line, 20);
+    assert_true(f->marks[1].has[VG_P_TEMPERATURE] && f->marks[1].v[VG_P_TEMPERATURE] == 77.0);
+    assert_true(f->marks[1].has[VG_P_HUANG_RHYS] && f->marks[1].v[VG_P_HUANG_RHYS] == 0.12);
+    assert_false(f->marks[1].has[VG_P_GAP] || f->marks[1].has[VG_P_REORG]);
+    assert_string_equal(f->marks[2].label, "\xCE\xB5 \xE2\x89\x88 \xCE\xBB"); /* UTF-8 */
+    vg_config_free(&cfg);
+}
+
+/* The other spellings: each width unit, "none", every metric, the limits. */
+static void test_figure_values(void **state)
+{
+    static const struct {
+        const char *width;
+        double in;
+    } w[] = {
+        /* 1 in = 25.4 mm exactly (international inch, 1959); 1 pt = 1/72 in
+         * (the PostScript point, common practice in PDF and SVG). */
+        {"180 mm", 180.0 / 25.4}, {"504 pt", 7.0}, {"6.35in", 6.35}, {"1 in", 1.0},
+        {"40 in", 40.0}, {"101.6 cm", 40.0}, {"72 pt", 1.0},
+    };
+    static const char all_maps[] = "maps = log10_contrast, assisted_fraction, log10_ratio, "
+                                   "log10_k_bare, log10_k_total, log10_k_assisted, "
+                                   "log10_k_elastic\n";
+    char text[2048];
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    for (size_t i = 0; i < sizeof w / sizeof w[0]; i++) {
+        snprintf(text, sizeof text, FIG_GRID "width = %s\n", w[i].width);
+        load_text(&cfg, text, 0, NULL, VG_OK, &err);
+        assert_rel(cfg.fig.width_in, w[i].in, 2 * DBL_EPSILON);
+        vg_config_free(&cfg);
+    }
+    snprintf(text, sizeof text, FIG_GRID "figures = pdf, png, svg, pdf\n%sdpi = 50\n"
+             "contours = none\nfont = Times\n", all_maps);
+    load_text(&cfg, text, 0, NULL, VG_OK, &err);
+    assert_int_equal(cfg.fig.formats, VG_FIG_PNG | VG_FIG_PDF | VG_FIG_SVG);
+    assert_int_equal(cfg.fig.nmaps, VG_N_METRICS);
+    for (int m = 0; m < VG_N_METRICS; m++)
+        assert_int_equal(cfg.fig.maps[m], VG_N_METRICS - 1 - m);
+    assert_true(cfg.fig.dpi == 50.0);
+    assert_int_equal(cfg.fig.ncontours, 0);
+    vg_config_free(&cfg);
+
+    /* 63 bytes, the most a font name or a mark label may have. */
+    load_text(&cfg, FIG_GRID
+              "font = 012345678901234567890123456789012345678901234567890123456789012\n"
+              "mark = 012345678901234567890123456789012345678901234567890123456789012: gap 1 meV\n",
+              0, NULL, VG_OK, &err);
+    assert_int_equal(strlen(cfg.fig.font), 63);
+    assert_int_equal(strlen(cfg.fig.marks[0].label), 63);
+    vg_config_free(&cfg);
+
+    load_text(&cfg, FIG_GRID "figures = none\ndpi = 2400\npanels = none\nrows = none\n", 0,
+              NULL, VG_OK, &err);
+    assert_int_equal(cfg.fig.formats, 0);
+    assert_true(cfg.fig.dpi == 2400.0);
+    assert_true(cfg.fig.panels == -1 && cfg.fig.rows == -1);
+    vg_config_free(&cfg);
+}
+
+/* A text of n "mark = Mi: gap i meV" lines and n contour levels 0 .. n-1. */
+static void many(char *text, size_t size, int marks, int levels)
+{
+    size_t used = (size_t)snprintf(text, size, FIG_GRID "contours = 0");
+    for (int i = 1; i < levels; i++)
+        used += (size_t)snprintf(text + used, size - used, ", %d", i);
+    used += (size_t)snprintf(text + used, size - used, "\n");
+    for (int i = 0; i < marks; i++)
+        used += (size_t)snprintf(text + used, size - used, "mark = M%d: gap %d meV\n", i, i);
+}
+
+/* Up to VG_MAX_MARKS marks and VG_MAX_CONTOURS levels; one more is refused. */
+static void test_figure_limits(void **state)
+{
+    char text[4096];
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    many(text, sizeof text, VG_MAX_MARKS, VG_MAX_CONTOURS);
+    load_text(&cfg, text, 0, NULL, VG_OK, &err);
+    assert_int_equal(cfg.fig.nmarks, 16);
+    assert_int_equal(cfg.fig.ncontours, 16);
+    assert_string_equal(cfg.fig.marks[15].label, "M15");
+    assert_true(cfg.fig.marks[15].v[VG_P_GAP] == 15.0);
+    assert_true(cfg.fig.contours[15] == 15.0);
+    vg_config_free(&cfg);
+
+    many(text, sizeof text, VG_MAX_MARKS + 1, VG_MAX_CONTOURS);
+    expect_refused(text, "@FILE@:26: 'mark' is given more than 16 times (the limit is 16 "
+                         "marks)"); /* line 9 contours, marks at lines 10 .. 26 */
+    many(text, sizeof text, 0, VG_MAX_CONTOURS + 1);
+    expect_refused(text, "@FILE@:9: 'contours' has 17 levels, more than the limit of 16");
+}
+
+/* Overrides: output.mark adds a mark; the others replace the value. */
+static void test_figure_overrides(void **state)
+{
+    static const char text[] = FIG_GRID "figures = png\npanels = mode\ncontours = 1, 2\n"
+                               "mark = A: gap 100 meV\n";
+    static const char *const sets[] = {
+        "output.mark=B: gap 200 meV", "output.figures=pdf", "output.panels=none",
+        "output.contours=none", "output.mark = C:reorganization 20 meV", "output.x=mode",
+        "output.width=10 cm"};
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    load_text(&cfg, text, 7, sets, VG_OK, &err);
+    assert_int_equal(cfg.fig.nmarks, 3);
+    assert_string_equal(cfg.fig.marks[0].label, "A");
+    assert_int_equal(cfg.fig.marks[0].line, 12);
+    assert_string_equal(cfg.fig.marks[1].label, "B");
+    assert_int_equal(cfg.fig.marks[1].line, -1);
+    assert_true(cfg.fig.marks[1].v[VG_P_GAP] == 200.0);
+    assert_string_equal(cfg.fig.marks[2].label, "C");
+    assert_true(cfg.fig.marks[2].v[VG_P_REORG] == 20.0);
+    assert_int_equal(cfg.fig.formats, VG_FIG_PDF);
+    assert_int_equal(cfg.fig.panels, -1);
+    assert_int_equal(cfg.fig.ncontours, 0);
+    assert_int_equal(cfg.fig.x, VG_P_MODE);
+    assert_int_equal(cfg.fig.y, VG_P_GAP); /* the fastest axis other than x */
+    assert_rel(cfg.fig.width_in, 10.0 / 2.54, DBL_EPSILON);
+    vg_config_free(&cfg);
+}
+
+/* With figures = none the figure keys are read one by one but not checked
+ * against the grid: a scalar x is accepted, as is a grid without axes. */
+static void test_figure_keys_unused(void **state)
+{
+    static const char *const sets[] = {"output.figures=none"};
+    char text[1024];
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    load_text(&cfg, FIG_GRID "x = huang_rhys\nrows = temperature\n", 0, NULL, VG_OK, &err);
+    assert_int_equal(cfg.fig.x, VG_P_HUANG_RHYS);
+    assert_int_equal(cfg.fig.y, VG_P_GAP);
+    assert_int_equal(cfg.fig.rows, VG_P_TEMPERATURE);
+    vg_config_free(&cfg);
+    snprintf(text, sizeof text, "%s[output]\nfigures = png\ndata = csv\n", minimal);
+    load_text(&cfg, text, 1, sets, VG_OK, &err);
+    assert_int_equal(cfg.fig.formats, 0);
+    vg_config_free(&cfg);
+}
+
+/* Mistakes of one figure key, each with its exact message. */
+static void test_figure_errors(void **state)
+{
+    static const struct {
+        const char *keys; /* [output] lines after FIG_GRID, from line 9 */
+        const char *msg;
+    } c[] = {
+        {"figures = jpg\n", "9: unknown figure format 'jpg' in 'figures' (allowed: png, pdf, "
+                            "svg, none)"},
+        {"figures = pgn\n", "9: unknown figure format 'pgn' in 'figures' (did you mean "
+                            "'png'?)"},
+        {"figures = PDF\n", "9: unknown figure format 'PDF' in 'figures' (did you mean "
+                            "'pdf'?)"},
+        {"figures = png,,pdf\n", "9: empty item in the list of 'figures' (allowed: png, pdf, "
+                                 "svg, none)"},
+        {"figures =\n", "9: empty item in the list of 'figures' (allowed: png, pdf, svg, "
+                        "none)"},
+        {"figures = none, png\n", "9: 'figures' takes 'none' or a list of formats, not both "
+                                  "(got 'none, png')"},
+        {"figures = png\nfigures = pdf\n", "10: duplicate key 'figures' in [output] (first set "
+                                           "at line 9)"},
+        {"maps = log10_ratoi\n", "9: unknown metric 'log10_ratoi' in 'maps' (did you mean "
+                                 "'log10_ratio'?)"},
+        {"maps = rate\n", "9: unknown metric 'rate' in 'maps' (allowed: log10_k_elastic, "
+                          "log10_k_assisted, log10_k_total, log10_k_bare, log10_ratio, "
+                          "assisted_fraction, log10_contrast)"},
+        {"maps = log10_ratio, log10_k_total, log10_ratio\n", "9: metric 'log10_ratio' appears "
+                                                             "twice in 'maps'"},
+        {"maps = log10_ratio,\n", "9: empty item in the list of 'maps' (allowed: "
+                                  "log10_k_elastic, log10_k_assisted, log10_k_total, "
+                                  "log10_k_bare, log10_ratio, assisted_fraction, "
+                                  "log10_contrast)"},
+        {"x = temp\n", "9: unknown parameter 'temp' in 'x' (did you mean 'temperature'?)"},
+        {"x = voltage\n", "9: unknown parameter 'voltage' in 'x' (allowed: gap, "
+                          "reorganization, electronic_coupling, huang_rhys, mode, "
+                          "temperature)"},
+        {"y = gap, mode\n", "9: 'y' takes a single value (got 'gap, mode')"},
+        {"y =\n", "9: 'y' has no value"},
+        {"panels = Gap\n", "9: unknown parameter 'Gap' in 'panels' (did you mean 'gap'?)"},
+        {"panels = voltage\n", "9: unknown parameter 'voltage' in 'panels' (allowed: gap, "
+                               "reorganization, electronic_coupling, huang_rhys, mode, "
+                               "temperature, none)"},
+        {"rows = huang\n", "9: unknown parameter 'huang' in 'rows' (did you mean "
+                           "'huang_rhys'?)"},
+        {"width = 7\n", "9: 'width' needs a unit: in, cm, mm or pt (got '7')"},
+        {"width = 7 px\n", "9: unknown unit 'px' for 'width' (allowed: in, cm, mm or pt)"},
+        {"width = 7 IN\n", "9: unknown unit 'IN' for 'width' (allowed: in, cm, mm or pt)"},
+        {"width = 0.5 in\n", "9: 'width' must be between 1 and 40 in (got 0.5 in)"},
+        {"width = 200 cm\n", "9: 'width' must be between 1 and 40 in (got 200 cm = 78.7402 "
+                             "in)"},                          /* 200/2.54 = 78.74015... */
+        {"width = 70 pt\n", "9: 'width' must be between 1 and 40 in (got 70 pt = 0.972222 in)"},
+        {"width = -7 in\n", "9: 'width' must be between 1 and 40 in (got -7 in)"},
+        {"width = 7 in, 8 in\n", "9: 'width' takes a single value (got '7 in, 8 in')"},
+        {"width = inf in\n", "9: bad number 'inf' for 'width' (write a decimal number such as "
+                             "120, -0.5 or 1.5e-3)"},
+        {"dpi = 300 dpi\n", "9: 'dpi' is in dots per inch and takes no unit (got '300 dpi')"},
+        {"dpi = 20\n", "9: 'dpi' must be between 50 and 2400 (got 20)"},
+        {"dpi = 4800\n", "9: 'dpi' must be between 50 and 2400 (got 4800)"},
+        {"dpi = 0x12C\n", "9: hex number '0x12C' for 'dpi' is not allowed (write a decimal "
+                          "number)"},
+        {"dpi =\n", "9: 'dpi' has no value"},
+        {"font =\n", "9: 'font' needs a font family name, such as 'DejaVu Sans'"},
+        {"font = " "0123456789012345678901234567890123456789012345678901234567890123" "\n",
+         "9: 'font' is 64 bytes long, the limit is 63 bytes (got "
+         "'0123456789012345678901234567890123456789012345678901234567890123')"},
+        {"contours =\n", "9: 'contours' has no value"},
+        {"contours = 1, , 2\n", "9: empty item in the list of 'contours'"},
+        {"contours = 0, 1 dex\n", "9: 'contours' is in the units of the mapped metric and "
+                                  "takes no unit (got '1 dex')"},
+        {"contours = 0, nan\n", "9: bad number 'nan' for 'contours' (write a decimal number "
+                                "such as 120, -0.5 or 1.5e-3)"},
+        {"contours = 1e999\n", "9: number '1e999' for 'contours' is out of the range of double "
+                               "precision"},
+        {"contours = 1, 0, 2\n", "9: the values of 'contours' must all differ and be in "
+                                 "increasing or decreasing order (got '1, 0, 2')"},
+        {"contours = 1, 1\n", "9: the values of 'contours' must all differ and be in "
+                              "increasing or decreasing order (got '1, 1')"},
+        {"mark = M1 gap 230 meV\n", "9: 'mark' needs a label, ':' and parameter values, as in "
+                                    "'" MARK_EXAMPLE "' (got 'M1 gap 230 meV')"},
+        {"mark = : gap 230 meV\n", "9: 'mark' needs a label before ':', as in '" MARK_EXAMPLE
+                                   "' (got ': gap 230 meV')"},
+        {"mark = M1:\n", "9: mark 'M1' needs at least one parameter value after ':', as in '"
+                         MARK_EXAMPLE "'"},
+        {"mark = " "0123456789012345678901234567890123456789012345678901234567890123"
+         ": gap 1 meV\n", "9: the label of 'mark' is 64 bytes long, the limit is 63 bytes "
+         "(got '0123456789012345678901234567890123456789012345678901234567890123')"},
+        {"mark = M1: gap 230 meV, , mode 200 meV\n", "9: empty item in the list of 'mark'"},
+        {"mark = M1: gap 230 meV,\n", "9: empty item in the list of 'mark'"},
+        {"mark = M1: gapp 230 meV\n", "9: unknown parameter 'gapp' in 'mark' (did you mean "
+                                      "'gap'?)"},
+        {"mark = M1: 230 meV\n", "9: unknown parameter '230' in 'mark' (allowed: gap, "
+                                 "reorganization, electronic_coupling, huang_rhys, mode, "
+                                 "temperature)"},
+        {"mark = M1: gap\n", "9: 'gap' in 'mark' has no value"},
+        {"mark = M1: gap 230\n", "9: 'gap' needs a unit: meV, eV, cm-1, cm^-1, kJ/mol or "
+                                 "kcal/mol (got '230')"},
+        {"mark = M1: temperature 25 meV\n", "9: 'temperature' takes a unit of K, not 'meV' "
+                                            "(got '25 meV')"},
+        {"mark = M1: huang_rhys 0.1 meV\n", "9: 'huang_rhys' is dimensionless and takes no "
+                                            "unit (got '0.1 meV')"},
+        {"mark = M1: gap 5 eV\n", "9: 'gap' must be between -3000 and 3000 meV (got 5 eV = "
+                                  "5000 meV)"},
+        {"mark = M1: reorganization 0 meV\n", "9: 'reorganization' must be > 0 meV (got 0 "
+                                              "meV)"},
+        {"mark = M1: mode 9000 cm-1\n", "9: 'mode' must be between 1 and 1000 meV (got 9000 "
+                                        "cm-1 = 1115.86 meV)"},
+        {"mark = M1: gap two meV\n", "9: bad number 'two' for 'gap' (write a decimal number "
+                                     "such as 120, -0.5 or 1.5e-3)"},
+        {"mark = M1: gap 1 .. 2 meV\n", "9: 'gap' in 'mark' takes a single value (got '1 .. 2 "
+                                        "meV')"},
+        {"mark = M1: gap 230 meV, gap 240 meV\n", "9: 'gap' is given twice in mark 'M1'"},
+        {"mark = M1: gap 230 meV\nmark = M2: gap 1 meV\nmark = M1: gap 240 meV\n",
+         "11: mark 'M1' appears twice (first at line 9)"},
+    };
+    (void)state;
+    for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
+        char text[1024], msg[512];
+        snprintf(text, sizeof text, FIG_GRID "%s", c[i].keys);
+        snprintf(msg, sizeof msg, "@FILE@:%s", c[i].msg);
+        expect_refused(text, msg);
+    }
+}
+
+/* Checks of the whole: figures need sweep.nc with every map, two axes,
+ * and x, y, panels, rows naming distinct axes of the final grid. */
+static void test_figure_cross_errors(void **state)
+{
+    static const struct {
+        const char *params; /* NULL: FIG_GRID; else the [parameters] section */
+        const char *keys;   /* the [output] lines */
+        const char *set;    /* one --set, or NULL */
+        const char *msg;
+    } c[] = {
+        {NULL, "figures = png\ndata = csv\n", NULL, "@FILE@:9: 'figures' needs 'netcdf' in "
+         "'data' (figures are drawn from sweep.nc)"},
+        {NULL, "data = csv\nfigures = png\n", NULL, "@FILE@:10: 'figures' needs 'netcdf' in "
+         "'data' (figures are drawn from sweep.nc)"},
+        {NULL, "figures = png\n", "output.data=csv", "@FILE@:9: 'figures' needs 'netcdf' in "
+         "'data' (figures are drawn from sweep.nc)"},
+        {NULL, "data = csv\n", "output.figures=svg", "--set output.figures: 'figures' needs "
+         "'netcdf' in 'data' (figures are drawn from sweep.nc)"},
+        {NULL, "figures = png\nmetrics = log10_k_total\n", NULL, "@FILE@:10: 'maps' needs "
+         "'log10_ratio' in 'metrics' (figures are drawn from sweep.nc)"},
+        {NULL, "figures = png\nmetrics = log10_ratio\nmaps = log10_ratio, log10_k_bare\n",
+         NULL, "@FILE@:11: 'maps' needs 'log10_k_bare' in 'metrics' (figures are drawn from "
+         "sweep.nc)"},
+        {"gap = 0 .. 600 meV, 7 points\nreorganization = 30 meV\n", "figures = png\n", NULL,
+         "@FILE@:9: figures need at least two axes (parameters with more than one value); the "
+         "grid has 1"},
+        {"gap = 250 meV\nreorganization = 30 meV\n", "figures = pdf\n", NULL,
+         "@FILE@:9: figures need at least two axes (parameters with more than one value); the "
+         "grid has 0"},
+        {"gap = 0 .. 600 meV, 7 points\nreorganization = 10, 20 meV\n", "figures = png\n",
+         "parameters.reorganization=30 meV", "@FILE@:9: figures need at least two axes "
+         "(parameters with more than one value); the grid has 1"},
+        {NULL, "figures = png\nx = huang_rhys\n", NULL, "@FILE@:10: 'x' must name an axis of "
+         "the grid (got 'huang_rhys', a single value; axes: " FIG_AXES ")"},
+        {NULL, "figures = png\ny = temperature\n", NULL, "@FILE@:10: 'y' must name an axis of "
+         "the grid (got 'temperature', a single value; axes: " FIG_AXES ")"},
+        {NULL, "figures = png\nx = gap\ny = gap\n", NULL, "@FILE@:11: 'y' must differ from "
+         "'x' (got 'gap', which is 'x')"},
+        {NULL, "figures = png\npanels = gap\n", NULL, "@FILE@:10: 'panels' must differ from "
+         "'x' and 'y' (got 'gap', which is 'x')"},
+        {NULL, "figures = png\npanels = reorganization\n", NULL, "@FILE@:10: 'panels' must "
+         "differ from 'x' and 'y' (got 'reorganization', which is 'y')"},
+        {NULL, "figures = png\npanels = temperature\n", NULL, "@FILE@:10: 'panels' must name "
+         "an axis of the grid (got 'temperature', a single value; axes: " FIG_AXES ")"},
+        {NULL, "figures = png\nrows = mode\n", NULL, "@FILE@:10: 'rows' needs 'panels' too "
+         "(rows arrange the panels of a figure)"},
+        {NULL, "figures = png\nrows = mode\npanels = mode\n", NULL, "@FILE@:10: 'rows' must "
+         "differ from 'x', 'y' and 'panels' (got 'mode', which is 'panels')"},
+        {NULL, "figures = png\nrows = gap\npanels = mode\n", NULL, "@FILE@:10: 'rows' must "
+         "differ from 'x', 'y' and 'panels' (got 'gap', which is 'x')"},
+        {NULL, "figures = png\npanels = mode\nrows = huang_rhys\n", NULL, "@FILE@:11: 'rows' "
+         "must name an axis of the grid (got 'huang_rhys', a single value; axes: " FIG_AXES
+         ")"},
+        {NULL, "figures = png\npanels = mode\n", "parameters.mode=1720 cm-1", "@FILE@:10: "
+         "'panels' must name an axis of the grid (got 'mode', a single value; axes: gap, "
+         "reorganization, electronic_coupling)"},
+        {NULL, "figures = png\n", "output.panels=huang_rhys", "--set output.panels: 'panels' "
+         "must name an axis of the grid (got 'huang_rhys', a single value; axes: " FIG_AXES
+         ")"},
+        {NULL, "figures = png\npanels = mode\nrows = electronic_coupling\n",
+         "output.panels=none", "@FILE@:11: 'rows' needs 'panels' too (rows arrange the panels "
+         "of a figure)"},
+        {"gap = 1 .. 600 meV, 7 points, log\nreorganization = 10, 20 meV\n", "figures = png\n"
+         "mark = A: gap -20 meV, reorganization 10 meV\n", NULL, "@FILE@:10: mark 'A' needs "
+         "'gap' > 0 to be placed on the log axis 'x' (got -20 meV)"},
+        {"gap = 0 .. 600 meV, 7 points\nreorganization = 30 meV\n", "figures = png\n"
+         "y = huang_rhys\nmark = A: gap 1 meV\nmark = B: huang_rhys 0, gap 1 meV\n",
+         "parameters.huang_rhys=0.01 .. 1, 5 points, log", "@FILE@:12: mark 'B' needs "
+         "'huang_rhys' > 0 to be placed on the log axis 'y' (got 0)"},
+        {NULL, "mark = M1: gap 230 meV\n", "output.mark=M1: gap 1 meV", "--set output.mark: "
+         "mark 'M1' appears twice (first at line 9)"},
+        {NULL, "figures = png\n", "output.figures=png, jpg", "--set output.figures: unknown "
+         "figure format 'jpg' in 'figures' (allowed: png, pdf, svg, none)"},
+    };
+    (void)state;
+    for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
+        char text[2048];
+        const char *sets[1] = {c[i].set};
+        vg_config cfg;
+        vg_error err;
+        if (c[i].params)
+            snprintf(text, sizeof text, "[parameters]\n%shuang_rhys = 0.05\nmode = 200 meV\n"
+                     "electronic_coupling = 1 meV\ntemperature = 310 K\n[output]\n%s",
+                     c[i].params, c[i].keys); /* [output] at line 8, as in FIG_GRID */
+        else
+            snprintf(text, sizeof text, FIG_GRID "%s", c[i].keys);
+        load_text(&cfg, text, c[i].set != NULL, sets, VG_ECONFIG, &err);
+        assert_message(&err, c[i].msg, write_ini(text));
+        assert_null(cfg.path);
+    }
+}
+
+/* A mark off the swept ranges is kept; only a log axis needs values > 0
+ * (the gap axis of FIG_GRID is linear, the reorganization axis log). */
+static void test_mark_placement(void **state)
+{
+    static const char *const sets[] = {"output.mark=C: reorganization 2500 meV, gap -0.5 eV"};
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    load_text(&cfg, FIG_GRID "figures = png\n", 1, sets, VG_OK, &err);
+    assert_int_equal(cfg.fig.nmarks, 1);
+    assert_true(cfg.fig.marks[0].v[VG_P_GAP] == -500.0);
+    assert_true(cfg.fig.marks[0].v[VG_P_REORG] == 2500.0);
+    vg_config_free(&cfg);
+}
+
+/* Two marks with one label through --set: the first is named as a --set. */
+static void test_mark_set_twice(void **state)
+{
+    static const char *const sets[] = {"output.mark=M2: gap 1 meV",
+                                       "output.mark=M2: gap 2 meV"};
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    load_text(&cfg, FIG_GRID, 2, sets, VG_ECONFIG, &err);
+    assert_string_equal(err.msg, "--set output.mark: mark 'M2' appears twice (first in --set "
+                                 "output.mark)");
+}
+
+/* A config held in memory: the same result as the same text from a file,
+ * with the name in place of the path, in cfg->path and in every message. */
+static void test_load_text(void **state)
+{
+    static const char *const name = "out/sweep.nc (config_text)";
+    static const char *const sets[] = {"parameters.temperature=77 K"};
+    char text[512];
+    vg_config cfg, ref;
+    vg_error err;
+
+    (void)state;
+    snprintf(text, sizeof text, "%s[output]\nmetrics = log10_ratio\n", minimal);
+    assert_int_equal(vg_config_load_text(&cfg, name, text, 1, sets, &err), VG_OK);
+    load_text(&ref, text, 1, sets, VG_OK, &err);
+    assert_string_equal(cfg.path, name);
+    assert_string_equal(cfg.text, text);
+    assert_true(cfg.text != text); /* a copy */
+    assert_string_equal(cfg.overrides, "parameters.temperature=77 K");
+    for (int p = 0; p < VG_NPARAM; p++) {
+        assert_int_equal(cfg.param[p].n, ref.param[p].n);
+        assert_true(cfg.param[p].v[0] == ref.param[p].v[0]);
+        assert_int_equal(cfg.param[p].line, ref.param[p].line);
+    }
+    assert_true(cfg.param[VG_P_TEMPERATURE].v[0] == 77.0);
+    assert_memory_equal(cfg.metric_on, ref.metric_on, sizeof cfg.metric_on);
+    vg_config_free(&cfg);
+    vg_config_free(&ref);
+
+    assert_int_equal(vg_config_load_text(&cfg, name, "[parameters]\ngap = 250\n", 0, NULL,
+                                         &err), VG_ECONFIG);
+    assert_string_equal(err.msg, "out/sweep.nc (config_text):2: 'gap' needs a unit: meV, eV, "
+                                 "cm-1, cm^-1, kJ/mol or kcal/mol (got '250')");
+    assert_null(cfg.path); /* cfg is left freed */
+    assert_int_equal(vg_config_load_text(&cfg, name, minimal, 1,
+                                         (const char *const[]){"parameters.gap=9 eV"}, &err),
+                     VG_ECONFIG);
+    assert_string_equal(err.msg, "--set parameters.gap: 'gap' must be between -3000 and 3000 "
+                                 "meV (got 9 eV = 9000 meV)");
+}
+
+/* A text longer than the 1 MiB limit of a file is refused the same way. */
+static void test_load_text_limit(void **state)
+{
+    size_t n = 1024 * 1024 + 1;
+    char *text = malloc(n + 1);
+    vg_config cfg;
+    vg_error err;
+
+    (void)state;
+    assert_non_null(text);
+    memset(text, '\n', n);
+    text[n] = '\0';
+    assert_int_equal(vg_config_load_text(&cfg, "mem", text, 0, NULL, &err), VG_ECONFIG);
+    assert_string_equal(err.msg, "mem: config text is larger than the limit of 1048576 bytes");
+    text[n - 1] = '\0'; /* exactly 1 MiB of empty lines: read, then no parameters */
+    assert_int_equal(vg_config_load_text(&cfg, "mem", text, 0, NULL, &err), VG_ECONFIG);
+    assert_string_equal(err.msg, "mem:1: missing required parameter 'gap' in [parameters]");
+    free(text);
+}
+
+/* ------------------------------------------------------------------ */
 /* The bad-input catalogue.                                           */
 
 /* Line k (0-based) of text, without its newline, into out; 0 if absent. */
@@ -990,6 +1582,19 @@ int main(void)
         cmocka_unit_test(test_missing_and_unreadable),
         cmocka_unit_test(test_file_size_limit),
         cmocka_unit_test(test_max_size_raise),
+        cmocka_unit_test(test_figure_defaults),
+        cmocka_unit_test(test_figure_default_axes),
+        cmocka_unit_test(test_figure_keys),
+        cmocka_unit_test(test_figure_values),
+        cmocka_unit_test(test_figure_limits),
+        cmocka_unit_test(test_figure_overrides),
+        cmocka_unit_test(test_figure_keys_unused),
+        cmocka_unit_test(test_figure_errors),
+        cmocka_unit_test(test_figure_cross_errors),
+        cmocka_unit_test(test_mark_set_twice),
+        cmocka_unit_test(test_mark_placement),
+        cmocka_unit_test(test_load_text),
+        cmocka_unit_test(test_load_text_limit),
         cmocka_unit_test(test_catalogue),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
