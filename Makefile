@@ -22,7 +22,7 @@ ifeq ($(CI),true)
 WERROR ?= 1
 endif
 
-PKGS      := gsl inih netcdf libpng cairo cairo-pdf cairo-svg pangocairo
+PKGS      := gsl inih netcdf libpng zlib cairo cairo-pdf cairo-svg pangocairo
 WARN      := -Wall -Wextra -Wshadow -Wconversion -Wstrict-prototypes
 ifeq ($(WERROR),1)
 WARN      += -Werror
@@ -32,7 +32,8 @@ OMPFLAGS  := -fopenmp
 endif
 
 # Recursive (=) so that pkg-config runs after the deps step has installed it.
-PKG_CFLAGS = $(shell $(PKG_CONFIG) --cflags $(PKGS))
+# Library headers as system headers, so our warning flags judge only our code.
+PKG_CFLAGS = $(patsubst -I%,-isystem %,$(shell $(PKG_CONFIG) --cflags $(PKGS)))
 PKG_LIBS   = $(shell $(PKG_CONFIG) --libs $(PKGS))
 ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
              -DVG_VERSION='"$(VERSION)"' -DVG_INIH_VERSION='"$(shell $(PKG_CONFIG) --modversion inih)"' $(CPPFLAGS) $(CFLAGS)

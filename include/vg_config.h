@@ -77,6 +77,7 @@ typedef struct {
     double contours[VG_MAX_CONTOURS]; /* extra levels, in the map metric's units */
     size_t nmarks;
     vg_mark marks[VG_MAX_MARKS];
+    char no_maps[VG_ERROR_MAX]; /* why maps cannot be drawn on this grid, "" if they can */
 } vg_figure_spec;
 
 typedef struct {
@@ -107,6 +108,12 @@ vg_status vg_config_load_text(vg_config *cfg, const char *name, const char *text
                               size_t nset, const char *const *sets, vg_error *err);
 
 void vg_config_free(vg_config *cfg);
+
+/* VG_ECONFIG (with the located message) if figures are asked for but the
+ * grid cannot have maps (fewer than two axes).  The loader accepts such a
+ * config because the same figure formats serve the spectrum command; the
+ * commands that draw maps (check, sweep, render) call this. */
+vg_status vg_config_check_maps(const vg_config *cfg, vg_error *err);
 
 /* Parse one value of the grammar ("120 meV", "1600, 2100 cm-1",
  * "0 .. 600 meV, 241 points", "0.001 .. 1, 31 points, log") for parameter id.

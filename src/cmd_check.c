@@ -67,6 +67,11 @@ vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err)
 
     if (st != VG_OK)
         return st;
+    st = vg_config_check_maps(&cfg, err);
+    if (st != VG_OK) {
+        vg_config_free(&cfg);
+        return st;
+    }
     vg_grid_init(&g, &cfg);
     printf("config: %s: valid\n", cfg.path);
     if (cfg.title[0])

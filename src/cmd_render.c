@@ -43,6 +43,8 @@ vg_status vg_cmd_figures(const char *nc_path, const char *dir, size_t nset,
     char stamp[32], software[64];
     vg_status st = open_for_figures(&ds, nc_path, nset, sets, default_png, err);
 
+    if (st == VG_OK && (st = vg_config_check_maps(&ds.cfg, err)) != VG_OK)
+        vg_dataset_close(&ds);
     if (st != VG_OK)
         return st;
     vg_draw_timestamp(stamp, sizeof stamp, &meta.epoch);

@@ -28,6 +28,7 @@
 #define MAXCH 24         /* channels drawn */
 #define MIN_DECADES 8.0  /* y range below the highest curve, at least */
 #define MAX_DECADES 30.0 /* and at most */
+#define MARKER_EDGE 14.0 /* points kept free of marker labels at the frame ends */
 #define CH_SHARE 1e-6    /* a channel is drawn if it reaches this share of the peak total */
 
 typedef struct {
@@ -189,8 +190,9 @@ static void draw_markers(cairo_t *cr, const spectrum *s, const frame *f, const c
     for (long n = -3; n <= 12; n++) {
         double g = s->lam + (double)n * s->hw;
         char lab[64];
-        if (g < s->xmin || g > s->xmax)
-            continue;
+        double x = px(s, f, g);
+        if (x < f->x0 + MARKER_EDGE || x > f->x0 + f->w - MARKER_EDGE)
+            continue; /* a label there would collide with the axis labels */
         cairo_set_source_rgb(cr, 0.35, 0.35, 0.35);
         cairo_move_to(cr, px(s, f, g), f->y0);
         cairo_line_to(cr, px(s, f, g), f->y0 + f->h);
@@ -253,37 +255,39 @@ static void draw_curves(cairo_t *cr, const spectrum *s, const frame *f, const vg
     cairo_save(cr);
     cairo_rectangle(cr, f->x0, f->y0, f->w, f->h);
     cairo_clip(cr);
-    for (size_t c = 0; c < s->nch; c++) {
-        double rgb[3];
-        vg_cmap_eval(seq, 0.15 + 0.6 * (double)c / (double)(s->nch > 1 ? s->nch - 1 : 1), rgb);
-        cairo_set_source_rgb(cr, rgb[0], rgb[1], rgb[2]);
-        cairo_set_line_width(cr, 0.9);
-        curve(cr, s, f, s->chk[c]);
-        cairo_stroke(cr);
-    }
+    /* total underneath, wide, so the channels that make it up stay visible */
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_set_line_width(cr, 2.2);
+    curve(cr, s, f, s->tot);
+    cairo_stroke(cr);
     cairo_set_source_rgb(cr, grey[0], grey[1], grey[2]);
     cairo_set_dash(cr, dash2, 2, 0);
     cairo_set_line_width(cr, 0.9);
     curve(cr, s, f, s->bare);
     cairo_stroke(cr);
+    cairo_set_dash(cr, NULL, 0, 0);
+    for (size_t c = 0; c < s->nch; c++) {
+        double rgb[3];
+        vg_cmap_eval(seq, 0.35 + 0.45 * (double)c / (double)(s->nch > 1 ? s->nch - 1 : 1), rgb);
+        cairo_set_source_rgb(cr, rgb[0], rgb[1], rgb[2]);
+        cairo_set_line_width(cr, 0.9);
+        curve(cr, s, f, s->chk[c]);
+        cairo_stroke(cr);
+    }
     cairo_set_source_rgb(cr, blue[0], blue[1], blue[2]);
     cairo_set_dash(cr, dash, 2, 0);
-    cairo_set_line_width(cr, 1.2);
+    cairo_set_line_width(cr, 1.1);
     curve(cr, s, f, s->el);
     cairo_stroke(cr);
     cairo_set_dash(cr, NULL, 0, 0);
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_set_line_width(cr, 1.8);
-    curve(cr, s, f, s->tot);
-    cairo_stroke(cr);
     cairo_restore(cr);
-    legend_entry(cr, font, lx, ly, black, 1.8, NULL, 0, "total");
-    legend_entry(cr, font, lx, ly + 11, blue, 1.2, dash, 2, "elastic (<i>n</i> = 0)");
+    legend_entry(cr, font, lx, ly, black, 2.2, NULL, 0, "total");
+    legend_entry(cr, font, lx, ly + 11, blue, 1.1, dash, 2, "elastic (<i>n</i> = 0)");
     legend_entry(cr, font, lx, ly + 22, grey, 0.9, dash2, 2, "no odorant (bare)");
     for (size_t c = 0; c < s->nch; c++) {
         double rgb[3];
         char lab[48];
-        vg_cmap_eval(seq, 0.15 + 0.6 * (double)c / (double)(s->nch > 1 ? s->nch - 1 : 1), rgb);
+        vg_cmap_eval(seq, 0.35 + 0.45 * (double)c / (double)(s->nch > 1 ? s->nch - 1 : 1), rgb);
         snprintf(lab, sizeof lab, "<i>n</i> = %s%ld", s->ch[c] < 0 ? "−" : "", labs(s->ch[c]));
         legend_entry(cr, font, lx, ly + 33 + 11 * (double)c, rgb, 0.9, NULL, 0, lab);
     }

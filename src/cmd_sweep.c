@@ -168,6 +168,11 @@ vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err)
 
     if (st != VG_OK)
         return st;
+    st = vg_config_check_maps(&cfg, err);
+    if (st != VG_OK) {
+        vg_config_free(&cfg);
+        return st;
+    }
     if (!a->quiet)
         note_defaults(&cfg);
     st = run(a, &cfg, err);

@@ -1932,11 +1932,19 @@ static vg_status check_figures(loader *ld)
     if (ld->cfg->fig.formats == 0)
         return VG_OK;
     st = check_sources(ld);
-    if (st == VG_OK && naxes < 2)
-        st = locate(ld, output_key("figures"),
-                    vg_error_set(ld->err, VG_ECONFIG, "figures need at least two axes "
-                                 "(parameters with more than one value); the grid has %zu",
-                                 naxes));
+    if (st == VG_OK && naxes < 2) {
+        /* No maps on this grid -- but the same formats still serve the
+         * spectrum of a single point, so the refusal waits for a command
+         * that draws maps (vg_config_check_maps). */
+        vg_error *keep = ld->err, later;
+        ld->err = &later;
+        locate(ld, output_key("figures"),
+               vg_error_set(ld->err, VG_ECONFIG, "figures need at least two axes "
+                            "(parameters with more than one value); the grid has %zu", naxes));
+        ld->err = keep;
+        memcpy(ld->cfg->fig.no_maps, later.msg, sizeof ld->cfg->fig.no_maps);
+        return VG_OK;
+    }
     if (st == VG_OK)
         st = check_roles(ld);
     if (st == VG_OK)
@@ -2087,4 +2095,11 @@ void vg_config_free(vg_config *cfg)
     for (int p = 0; p < VG_NPARAM; p++)
         free(cfg->param[p].v);
     memset(cfg, 0, sizeof *cfg);
+}
+
+vg_status vg_config_check_maps(const vg_config *cfg, vg_error *err)
+{
+    if (cfg->fig.formats && cfg->fig.no_maps[0])
+        return vg_error_set(err, VG_ECONFIG, "%s", cfg->fig.no_maps);
+    return VG_OK;
 }

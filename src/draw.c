@@ -13,12 +13,14 @@
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
+#include <sys/stat.h>
 
 #include <cairo-pdf.h>
 #include <cairo-svg.h>
 #include <pango/pangocairo.h>
 
 #include "draw.h"
+#include "fsutil.h"
 #include "vg_png.h"
 
 const char *vg_canvas_ext(vg_figure_format fmt)
@@ -70,7 +72,7 @@ static vg_status open_stream(vg_canvas *c, vg_error *err)
     if (!c->tmp)
         return vg_error_set(err, VG_ENOMEM, "out of memory writing '%s'", c->path);
     fd = mkstemp(c->tmp);
-    if (fd < 0 || !(c->fp = fdopen(fd, "wb"))) {
+    if (fd < 0 || fchmod(fd, vg_fs_new_file_mode()) != 0 || !(c->fp = fdopen(fd, "wb"))) {
         int e = errno;
         if (fd >= 0) {
             close(fd);

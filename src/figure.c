@@ -492,7 +492,7 @@ static void panel_title(cairo_t *cr, const figure *f, size_t c, size_t r, double
     if (f->fs->rows >= 0 && c + 1 == f->ncol) {
         value_markup(f->cfg, (vg_param_id)f->fs->rows, r, t, sizeof t);
         vg_draw_text(cr, f->fs->font, FS_PANEL, t, x0 + f->pw + 3.0, y0 + f->ph / 2, 0.5, 0.0,
-                     -VG_PI / 2);
+                     VG_PI / 2);
     }
 }
 
@@ -537,6 +537,32 @@ static void colorbar_triangle(cairo_t *cr, double x, double y, double w, double 
     cairo_close_path(cr);
 }
 
+/* The colour ramp as a 1 x N image, top = hi, scaled without smoothing. */
+static void colorbar_image(cairo_t *cr, const figure *f, double x, double y, double w, double h)
+{
+    cairo_surface_t *img = cairo_image_surface_create(CAIRO_FORMAT_RGB24, 1, VG_CMAP_N);
+    unsigned char *px = cairo_image_surface_get_data(img);
+    int stride = cairo_image_surface_get_stride(img);
+
+    cairo_surface_flush(img);
+    for (int k = 0; k < VG_CMAP_N; k++) {
+        unsigned char c[3];
+        vg_cmap_eval8(&f->cmap, (double)(VG_CMAP_N - 1 - k) / (VG_CMAP_N - 1), c);
+        *(uint32_t *)(void *)(px + (size_t)stride * (size_t)k) =
+            (uint32_t)c[0] << 16 | (uint32_t)c[1] << 8 | c[2];
+    }
+    cairo_surface_mark_dirty(img);
+    cairo_save(cr);
+    cairo_translate(cr, x, y);
+    cairo_scale(cr, w, h / VG_CMAP_N);
+    cairo_set_source_surface(cr, img, 0, 0);
+    cairo_pattern_set_filter(cairo_get_source(cr), CAIRO_FILTER_NEAREST);
+    cairo_rectangle(cr, 0, 0, 1, VG_CMAP_N);
+    cairo_fill(cr);
+    cairo_restore(cr);
+    cairo_surface_destroy(img);
+}
+
 static void draw_colorbar(cairo_t *cr, const figure *f)
 {
     double x = f->left + (double)f->ncol * f->pw + (double)(f->ncol - 1) * f->gapx + 12.0 +
@@ -546,12 +572,7 @@ static void draw_colorbar(cairo_t *cr, const figure *f)
     vg_ticks t;
     vg_error e;
 
-    for (int k = 0; k < 256; k++) { /* bottom (lo) to top (hi), one band per step */
-        vg_cmap_eval(&f->cmap, (k + 0.5) / 256.0, rgb);
-        cairo_set_source_rgb(cr, rgb[0], rgb[1], rgb[2]);
-        cairo_rectangle(cr, x, y + h * (1.0 - (k + 1) / 256.0), w, h / 256.0 + 0.01);
-        cairo_fill(cr);
-    }
+    colorbar_image(cr, f, x, y, w, h);
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_line_width(cr, 0.6);
     if (f->clamp_hi) {

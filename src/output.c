@@ -23,6 +23,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "fsutil.h"
 #include "output_int.h"
 
 vg_status vg_out_fail_errno(const vg_writer *w, int errnum, vg_error *err)
@@ -64,16 +65,6 @@ int vg_out_sync_close(int fd)
     if (close(fd) != 0 && e == 0)
         e = errno;
     return e;
-}
-
-/* 0666 less the process umask.  umask(2) can only be read by setting it, so
- * it is set and restored at once (writers are opened from one thread). */
-static mode_t new_file_mode(void)
-{
-    mode_t mask = umask(0);
-
-    umask(mask);
-    return (mode_t)(0666 & ~mask);
 }
 
 static void free_writer(vg_writer *w)
@@ -141,7 +132,7 @@ static vg_status start_file(vg_writer *w, vg_error *err)
 
     if (fd < 0)
         return vg_out_fail_errno(w, errno, err);
-    if (fchmod(fd, new_file_mode()) != 0) {
+    if (fchmod(fd, vg_fs_new_file_mode()) != 0) {
         int e = errno;
         close(fd);
         unlink(w->tmp);

@@ -39,6 +39,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "fsutil.h"
 #include "vg_png.h"
 
 /* Metres per inch: the international inch, exact by definition (1959). */
@@ -256,16 +257,6 @@ static vg_status check_args(const char *path, const unsigned char *pixels, int w
     return VG_OK;
 }
 
-/* 0666 less the process umask (mkstemp makes 0600): the mode a plain new
- * file would have.  umask(2) can only be read by setting it. */
-static mode_t new_file_mode(void)
-{
-    mode_t mask = umask(0);
-
-    umask(mask);
-    return (mode_t)(0666 & ~mask);
-}
-
 /* dir/.NAME.XXXXXX for path dir/NAME (NAME alone: .NAME.XXXXXX). */
 static char *temp_name(const char *path)
 {
@@ -305,7 +296,7 @@ static vg_status write_file(png_job *job, const char *path, char *tmp, vg_error 
 
     if (fd < 0)
         return fail_errno(path, errno, err);
-    if (fchmod(fd, new_file_mode()) != 0 || !(job->ctx.fp = fdopen(fd, "wb"))) {
+    if (fchmod(fd, vg_fs_new_file_mode()) != 0 || !(job->ctx.fp = fdopen(fd, "wb"))) {
         st = fail_errno(path, errno, err);
         close(fd);
     } else {

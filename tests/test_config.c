@@ -120,11 +120,23 @@ static void assert_message(const vg_error *err, const char *want, const char *pa
         fail_msg("message\n  got:  %s\n  want: %s", err->msg, want);
 }
 
+/* Load and check as the map-drawing commands do (check, sweep, render):
+ * vg_config_load, then vg_config_check_maps. */
+static vg_status load_for_maps(vg_config *cfg, const char *path, size_t nset,
+                               const char *const *sets, vg_error *err)
+{
+    vg_status st = vg_config_load(cfg, path, nset, sets, err);
+
+    if (st == VG_OK && (st = vg_config_check_maps(cfg, err)) != VG_OK)
+        vg_config_free(cfg);
+    return st;
+}
+
 /* Load text with the given overrides; expect status st. */
 static void load_text(vg_config *cfg, const char *text, size_t nset, const char *const *sets,
                       vg_status st, vg_error *err)
 {
-    vg_status got = vg_config_load(cfg, write_ini(text), nset, sets, err);
+    vg_status got = load_for_maps(cfg, write_ini(text), nset, sets, err);
 
     if (got != st)
         fail_msg("status %d, wanted %d (%s)", got, st, got ? err->msg : "");
@@ -1358,6 +1370,25 @@ static void test_figure_cross_errors(void **state)
     }
 }
 
+/* Figures on a grid without two axes are refused only by the map check:
+ * the loader keeps the formats for the spectrum of a single point. */
+static void test_figures_without_axes_serve_the_spectrum(void **state)
+{
+    vg_config cfg;
+    vg_error err;
+    char *path;
+
+    (void)state;
+    path = write_ini("[parameters]\ngap = 250 meV\nreorganization = 30 meV\nhuang_rhys = 0.05\n"
+                     "mode = 200 meV\n[output]\nfigures = pdf, svg\n");
+    assert_int_equal(vg_config_load(&cfg, path, 0, NULL, &err), VG_OK);
+    assert_int_equal(cfg.fig.formats, VG_FIG_PDF | VG_FIG_SVG);
+    assert_int_equal(vg_config_check_maps(&cfg, &err), VG_ECONFIG);
+    assert_message(&err, "@FILE@:7: figures need at least two axes (parameters with more "
+                   "than one value); the grid has 0", path);
+    vg_config_free(&cfg);
+}
+
 /* A mark off the swept ranges is kept; only a log axis needs values > 0
  * (the gap axis of FIG_GRID is linear, the reorganization axis log). */
 static void test_mark_placement(void **state)
@@ -1502,7 +1533,7 @@ static int run_case(const char *dir, const char *name)
         nset++;
     }
     free(text);
-    st = vg_config_load(&cfg, ini, nset, setp, &err);
+    st = load_for_maps(&cfg, ini, nset, setp, &err);
     if ((int)st == atoi(status) && strncmp(want, "vibrogate: ", 11) == 0 &&
         message_matches(err.msg, want + 11, ini))
         return 1;
@@ -1591,6 +1622,7 @@ int main(void)
         cmocka_unit_test(test_figure_keys_unused),
         cmocka_unit_test(test_figure_errors),
         cmocka_unit_test(test_figure_cross_errors),
+        cmocka_unit_test(test_figures_without_axes_serve_the_spectrum),
         cmocka_unit_test(test_mark_set_twice),
         cmocka_unit_test(test_mark_placement),
         cmocka_unit_test(test_load_text),
