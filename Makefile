@@ -58,7 +58,7 @@ TEST_BIN  := $(TEST_SRC:tests/%.c=$(B)/tests/%)
 TOOL_SRC  := $(wildcard tests/tools/*.c)
 TOOL_BIN  := $(TOOL_SRC:tests/tools/%.c=$(B)/tests/%)
 
-.PHONY: all deps demo check test-run install uninstall clean
+.PHONY: all deps demo maps bench check test-run install uninstall clean
 
 all: $(B)/vibrogate
 
@@ -92,7 +92,20 @@ deps:
 demo: deps
 	@$(MAKE) --no-print-directory all
 	./$(B)/vibrogate sweep configs/demo.ini --out $(B)/demo
-	@echo "demo outputs: $(B)/demo/ (sweep.nc, sweep.csv)"
+	@echo "demo outputs: $(B)/demo/ (sweep.nc, sweep.csv, map-*.png/.pdf/.svg)"
+
+# The demo's figures in maps/, reproducible (time stamp of the last commit).
+maps: deps
+	@$(MAKE) --no-print-directory all
+	rm -rf $(B)/maps-run
+	SOURCE_DATE_EPOCH=$$(git log -1 --format=%ct 2>/dev/null || echo 0) \
+	    ./$(B)/vibrogate sweep configs/demo.ini --out $(B)/maps-run --quiet
+	cp $(B)/maps-run/map-*.png maps/
+	@echo "maps: $$(ls maps/*.png | wc -l) figures in maps/"
+
+bench: deps
+	@$(MAKE) --no-print-directory all
+	@VG_BUILD=$(B) sh tests/bench/bench.sh
 
 check: deps
 	@$(MAKE) --no-print-directory test-run
