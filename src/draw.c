@@ -306,3 +306,24 @@ double vg_draw_text(cairo_t *cr, const char *font, double size_pt, const char *m
     g_object_unref(lay);
     return w;
 }
+
+void vg_draw_text_halo(cairo_t *cr, const char *font, double size_pt, const char *markup,
+                       double x, double y, double ax, double ay)
+{
+    PangoLayout *lay = layout_for(cr, font, size_pt, markup);
+    PangoRectangle log;
+
+    pango_layout_get_extents(lay, NULL, &log);
+    cairo_save(cr);
+    cairo_move_to(cr, x - ax * (double)log.width / PANGO_SCALE - (double)log.x / PANGO_SCALE,
+                  y - ay * (double)log.height / PANGO_SCALE - (double)log.y / PANGO_SCALE);
+    pango_cairo_layout_path(cr, lay);
+    cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
+    cairo_set_line_width(cr, 0.25 * size_pt);
+    cairo_set_source_rgb(cr, 1, 1, 1);
+    cairo_stroke_preserve(cr);
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_fill(cr);
+    cairo_restore(cr);
+    g_object_unref(lay);
+}

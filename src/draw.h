@@ -48,6 +48,10 @@ void vg_canvas_abort(vg_canvas *c);
 double vg_draw_text(cairo_t *cr, const char *font, double size_pt, const char *markup,
                     double x, double y, double ax, double ay, double angle);
 
+/* Unrotated black text with a white halo, legible on any cell colour. */
+void vg_draw_text_halo(cairo_t *cr, const char *font, double size_pt, const char *markup,
+                       double x, double y, double ax, double ay);
+
 /* Width and height in points of markup, unrotated. */
 void vg_draw_text_size(cairo_t *cr, const char *font, double size_pt, const char *markup,
                        double *w, double *h);

@@ -252,6 +252,7 @@ static vg_status colour_range(figure *f, vg_error *err)
                     v[n++] = f->diverging ? fabs(s[i]) : s[i];
         }
     qsort(v, n, sizeof *v, cmp_double);
+    f->clamp_lo = f->clamp_hi = 0;
     lo = n ? v[(size_t)(0.01 * (double)(n - 1))] : 0.0;
     hi = n ? v[(size_t)(0.99 * (double)(n - 1))] : 1.0;
     if (f->diverging) {
@@ -412,7 +413,7 @@ static void draw_marks(cairo_t *cr, const figure *f, size_t c, size_t r, double 
 {
     for (size_t k = 0; k < f->fs->nmarks; k++) {
         const vg_mark *m = &f->fs->marks[k];
-        double dx, dy, px, py;
+        double dx, dy, px, py, tw, th;
         char *label;
         if (!mark_shown(f, m, c, r))
             continue;
@@ -427,8 +428,11 @@ static void draw_marks(cairo_t *cr, const figure *f, size_t c, size_t r, double 
         cairo_set_line_width(cr, 0.8);
         cairo_stroke(cr);
         label = g_markup_escape_text(m->label, -1);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        vg_draw_text(cr, f->fs->font, FS_TICK, label, px + 4.0, py, 0.0, 0.5, 0.0);
+        vg_draw_text_size(cr, f->fs->font, FS_TICK, label, &tw, &th);
+        if (px + 4.0 + tw <= x0 + f->pw) /* right of the point, else left of it */
+            vg_draw_text_halo(cr, f->fs->font, FS_TICK, label, px + 4.0, py, 0.0, 0.5);
+        else
+            vg_draw_text_halo(cr, f->fs->font, FS_TICK, label, px - 4.0, py, 1.0, 0.5);
         g_free(label);
     }
 }

@@ -202,7 +202,10 @@ def check_csv_metrics(ds, header, rows):
 def check_one_run(out):
     nc_path, csv_path = os.path.join(out, "sweep.nc"), os.path.join(out, "sweep.csv")
     left = sorted(os.listdir(out))
-    report(left == ["sweep.csv", "sweep.nc"], "sweep: only the two outputs, no temporary file",
+    data = [n for n in left if not n.startswith("map-")]
+    # the demo also draws its maps (configs/demo.ini [output] figures)
+    report(data == ["sweep.csv", "sweep.nc"] and not any(n.startswith(".") for n in left),
+           "sweep: the two data files (and maps), no temporary file",
            left)
     if not (os.path.exists(nc_path) and os.path.exists(csv_path)):
         return

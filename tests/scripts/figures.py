@@ -188,6 +188,36 @@ def body(tmp):
         check(same, "render reproduces " + n + " byte for byte")
 
     probes(a, png)
+    spectrum(tmp)
+
+
+def spectrum(tmp):
+    """The spectrum command: same formats and metadata as the maps."""
+    d = os.path.join(tmp, "spec")
+    r = run([VG, "spectrum", "configs/point.ini", "--out", d, "--quiet",
+             "--set", "output.figures=png, pdf, svg"], {"SOURCE_DATE_EPOCH": EPOCH})
+    check(r.returncode == 0, "spectrum succeeds", r.stderr)
+    if r.returncode:
+        return
+    check(sorted(os.listdir(d)) == ["spectrum.pdf", "spectrum.png", "spectrum.svg"],
+          "spectrum writes png, pdf and svg", os.listdir(d))
+    ch = png_chunks(os.path.join(d, "spectrum.png"))
+    tx = itxt(ch)
+    check(all(ok for _, _, ok in ch) and tx.get("vibrogate config") == open("configs/point.ini", encoding="utf-8").read(),
+          "spectrum PNG carries the config text, valid CRCs")
+    r2 = run(["pdfinfo", os.path.join(d, "spectrum.pdf")])
+    check(r2.returncode == 0 and "vibrogate" in r2.stdout, "pdfinfo opens the spectrum PDF", r2.stderr)
+    try:
+        ET.parse(os.path.join(d, "spectrum.svg"))
+        check(True, "spectrum SVG parses as XML")
+    except ET.ParseError as e:
+        check(False, "spectrum SVG parses as XML", e)
+    r3 = run([VG, "spectrum", CFG, "--out", d, "--quiet"])
+    check(r3.returncode == 3 and "'spectrum' needs every parameter but 'gap' scalar" in r3.stderr,
+          "spectrum refuses a config with axes other than gap", r3.stderr)
+    r4 = run([VG, "check", "configs/point.ini", "--set", "output.figures=png"])
+    check(r4.returncode == 3 and "figures need at least two axes" in r4.stderr,
+          "check refuses maps on a grid without two axes", r4.stderr)
 
 
 def probes(a, png):
