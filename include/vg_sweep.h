@@ -25,6 +25,8 @@ typedef struct {
     size_t chunk;                    /* points per chunk; 0: VG_SWEEP_CHUNK */
     int progress;                    /* 1: a progress line on stderr */
     volatile sig_atomic_t *stop;     /* checked between chunks; may be NULL */
+    size_t start;                    /* first point to compute (a resumed run:
+                                        a multiple of the chunk size); 0 normally */
 } vg_sweep_opts;
 
 #define VG_SWEEP_CHUNK ((size_t)1 << 16)
@@ -34,6 +36,23 @@ typedef struct {
  * VG_EINTR when *stop became non-zero. */
 vg_status vg_sweep_run(const vg_grid *g, const vg_sweep_opts *opts,
                        vg_sweep_sink sink, void *ctx, vg_error *err);
+
+/* The same over several processes (Open MPI, when built with MPI=1):
+ * chunks are dealt to the ranks in turn, each rank computes its chunks with
+ * OpenMP threads, and rank 0 receives them in order and alone calls the
+ * sink (other ranks pass sink = NULL).  Output is identical to
+ * vg_sweep_run's.  Without MPI it is vg_sweep_run.  Every rank returns the
+ * same status. */
+vg_status vg_sweep_run_dist(const vg_grid *g, const vg_sweep_opts *opts,
+                            vg_sweep_sink sink, void *ctx, vg_error *err);
+
+/* Process layout for vg_sweep_run_dist: init once from main (MPI_Init_thread
+ * when built with MPI), rank (0 without MPI), size (1), finalize before
+ * exit. */
+vg_status vg_dist_init(int *argc, char ***argv, vg_error *err);
+int vg_dist_rank(void);
+int vg_dist_size(void);
+void vg_dist_finalize(void);
 
 /* Threads the sweep will use for opts (1 without OpenMP). */
 int vg_sweep_threads(const vg_sweep_opts *opts);

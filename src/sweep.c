@@ -225,7 +225,7 @@ static vg_status run_chunks(const vg_grid *g, const vg_sweep_opts *o, worker *ws
 
     minmax(&g->cfg->param[VG_P_GAP], &r.gap_lo, &r.gap_hi);
     minmax(&g->cfg->param[VG_P_REORG], &r.reorg_lo, &r.reorg_hi);
-    for (start = 0; start < g->npoints; start += count) {
+    for (start = o->start; start < g->npoints; start += count) {
         if (o->stop && *o->stop)
             return vg_error_set(err, VG_EINTR, "interrupted after %zu of %zu points",
                                 start, g->npoints);
