@@ -131,7 +131,7 @@ static vg_status run(const vg_cmd_args *a, const vg_config *cfg, vg_error *err)
     const char *dir = a->out_dir ? a->out_dir : cfg->out_dir;
     vg_grid g;
     vg_out_meta meta;
-    vg_sweep_opts so = {a->threads, 0, !a->quiet && isatty(2), a->stop};
+    vg_sweep_opts so = {a->threads, 0, !a->quiet && isatty(2), a->stop, 0};
     writer_set ws;
     vg_status st;
 

@@ -108,7 +108,7 @@ static vg_status collect(void *ctx, size_t start, size_t count, const double *m,
 static vg_status sweep_into(const vg_grid *g, int threads, size_t chunk, double *all)
 {
     collector c = {all, 0, SIZE_MAX};
-    vg_sweep_opts o = {threads, chunk, 0, NULL};
+    vg_sweep_opts o = {threads, chunk, 0, NULL, 0};
     vg_error err;
 
     return vg_sweep_run(g, &o, collect, &c, &err);
@@ -164,7 +164,7 @@ static void sink_failure_stops_the_sweep(void **state)
     vg_grid g;
     double all[60 * VG_N_METRICS];
     collector c = {all, 0, 14};
-    vg_sweep_opts o = {2, 7, 0, NULL};
+    vg_sweep_opts o = {2, 7, 0, NULL, 0};
     vg_error err;
 
     (void)state;
@@ -182,7 +182,7 @@ static void stop_flag_interrupts(void **state)
     double all[60 * VG_N_METRICS];
     collector c = {all, 0, SIZE_MAX};
     volatile sig_atomic_t stop = 1;
-    vg_sweep_opts o = {1, 7, 0, &stop};
+    vg_sweep_opts o = {1, 7, 0, &stop, 0};
     vg_error err;
 
     (void)state;
@@ -198,7 +198,7 @@ static void kernel_failure_is_reported_with_its_point(void **state)
     vg_grid g;
     double all[60 * VG_N_METRICS];
     collector c = {all, 0, SIZE_MAX};
-    vg_sweep_opts o = {2, 0, 0, NULL};
+    vg_sweep_opts o = {2, 0, 0, NULL, 0};
     vg_error err;
 
     (void)state;
