@@ -5,7 +5,8 @@
 set -u
 PKGS="make gcc pkg-config libgsl-dev libinih-dev libnetcdf-dev libcmocka-dev \
 libpng-dev libcairo2-dev libpango1.0-dev netcdf-bin poppler-utils \
-python3 python3-numpy python3-scipy python3-mpmath python3-netcdf4"
+python3 python3-numpy python3-scipy python3-mpmath python3-netcdf4 \
+libopenmpi-dev openmpi-bin"
 
 missing=""
 for p in $PKGS; do
