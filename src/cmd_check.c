@@ -3,8 +3,10 @@
  * the resolved parameters in canonical units, the grid shape, the number of
  * points and the expected output size -- without computing or writing.
  */
+#define _POSIX_C_SOURCE 200809L
 #include <stdio.h>
 #include <string.h>
+#include <sys/statvfs.h>
 
 #include "cmd.h"
 #include "vg_config.h"
@@ -42,6 +44,47 @@ static void print_grid(const vg_grid *g)
     printf(" (last varies fastest), %zu point%s\n", g->npoints, g->npoints == 1 ? "" : "s");
 }
 
+/* Free bytes on the file system that will hold dir: dir itself, or the
+ * nearest parent that exists (sweep creates the rest).  -1 if unknown. */
+static double free_bytes(const char *dir)
+{
+    char path[4096];
+    struct statvfs sv;
+
+    snprintf(path, sizeof path, "%s", dir);
+    for (;;) {
+        char *slash;
+        if (statvfs(path, &sv) == 0)
+            return (double)sv.f_bavail * (double)sv.f_frsize;
+        slash = strrchr(path, '/');
+        if (!slash)
+            return statvfs(".", &sv) == 0 ? (double)sv.f_bavail * (double)sv.f_frsize : -1.0;
+        if (slash == path) {
+            path[1] = '\0';
+            return statvfs(path, &sv) == 0 ? (double)sv.f_bavail * (double)sv.f_frsize : -1.0;
+        }
+        *slash = '\0';
+    }
+}
+
+static void print_space(const char *dir, double need)
+{
+    double avail = free_bytes(dir);
+    char a[32], n[32];
+
+    if (avail < 0) {
+        printf("free disk space: unknown for '%s'\n", dir);
+        return;
+    }
+    vg_fmt_bytes(avail, a, sizeof a);
+    printf("free disk space for '%s': %s\n", dir, a);
+    if (need > avail) {
+        vg_fmt_bytes(need, n, sizeof n);
+        fprintf(stderr, "vibrogate: warning: the outputs may need up to %s but only %s are free "
+                "for '%s'\n", n, a, dir);
+    }
+}
+
 static void print_output(const vg_cmd_args *a, const vg_config *cfg)
 {
     char est[32], lim[32];
@@ -57,6 +100,7 @@ static void print_output(const vg_cmd_args *a, const vg_config *cfg)
         if (cfg->metric_on[m])
             printf("%s %s", k++ ? "," : "", vg_metric_get((vg_metric_id)m)->name);
     printf("\nexpected output size: at most %s (limit %s)\n", est, lim);
+    print_space(a->out_dir ? a->out_dir : cfg->out_dir, vg_grid_output_bytes(cfg));
 }
 
 vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err)

@@ -65,3 +65,17 @@ if [ -x "$T/root/opt/vg/bin/vibrogate" ] && [ -f "$T/root/opt/vg/share/man/man1/
 else
     fail "make install" "$(find "$T/root" | head)"
 fi
+
+# check warns when the outputs may not fit: a 10^10-point grid (estimated
+# from the per-point sizes documented in docs/config.md) against the free
+# space that statvfs reports for the output directory's file system.
+"$VG" check configs/demo.ini --out "$T/big" --set 'parameters.gap=0 .. 600 meV, 100000 points' \
+    --set 'parameters.reorganization=10 .. 300 meV, 100000 points' \
+    --set 'parameters.mode=2950 cm-1' --set 'parameters.electronic_coupling=1 meV' \
+    --set 'output.figures=none' --set 'output.max_size=1000 TB' >"$T/out" 2>"$T/err"
+avail=$(df -P -B1 "$T" | awk 'NR == 2 { print $4 }')
+if grep -q "free disk space for '$T/big'" "$T/out" && { [ "$avail" -gt 500000000000000 ] || grep -q 'warning: the outputs may need up to' "$T/err"; }; then
+    pass "check reports free disk space and warns when the outputs may not fit"
+else
+    fail "check disk-space warning" "$(cat "$T/out" "$T/err" | tail -3)"
+fi
