@@ -9,13 +9,20 @@
  * decimals; only the ticks inside [lo, hi] are kept.  Every tick is held as
  * an exact decimal n * 10^e (n an integer), so its value is the double
  * nearest that decimal and its label is written from the integer digits.
+ * When the labelled ticks and the minor ones between them (the next finer
+ * 1-2-5 step that divides the labelled one) fit in VG_TICKS_MAX, both are
+ * given; otherwise the labelled ticks alone.
+ *
+ * Log axes: labelled decades 10^k (every 2nd, 5th, 10th ... decade when
+ * there would be more than target), minor ticks at 2..9 x 10^k or at the
+ * unlabelled decades when they fit; under two decades, labelled 1-2-5
+ * steps; too short even for two of those, the linear ticks.
  *
  * Errors: every argument failure returns VG_ENUMERIC.  The limits come from
  * the program itself (config axes, data ranges), never straight from the
  * user, so a bad one is an internal failure, not a usage error; the caller
  * adds the file and line it is drawing.
  */
-#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -33,8 +40,8 @@
  * the powers of ten of their steps would underflow or overflow. */
 #define ABS_MIN 1e-300
 #define ABS_MAX 1e300
-/* Labels are plain decimals while every |value| < PLAIN_MAX and the step
- * (linear) or the smallest value (log) is >= PLAIN_MIN; otherwise
+/* Labels are plain decimals while both |limits| are below PLAIN_MAX and
+ * the step (linear) or lo (log) is at least PLAIN_MIN; otherwise
  * m x 10^k. */
 #define PLAIN_MIN 1e-4
 #define PLAIN_MAX 1e6
@@ -192,7 +199,7 @@ static void label_sci(char *s, size_t cap, long long n, int e)
     unsigned long long u = n < 0 ? 0ULL - (unsigned long long)n : (unsigned long long)n;
     int x;
 
-    while (u % 10 == 0) {
+    while (u != 0 && u % 10 == 0) {
         u /= 10;
         e++;
     }
