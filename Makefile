@@ -57,6 +57,8 @@ TEST_SRC  := $(wildcard tests/test_*.c)
 TEST_BIN  := $(TEST_SRC:tests/%.c=$(B)/tests/%)
 TOOL_SRC  := $(wildcard tests/tools/*.c)
 TOOL_BIN  := $(TOOL_SRC:tests/tools/%.c=$(B)/tests/%)
+BENCH_SRC := $(wildcard tests/bench/*.c)
+BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(B)/bench/%)
 
 .PHONY: all deps demo maps bench check test-run install uninstall clean
 
@@ -76,14 +78,18 @@ $(B)/vibrogate: $(MAIN_OBJ) $(B)/libvibrogate.a
 
 $(B)/tests/test_%: tests/test_%.c $(B)/libvibrogate.a | $(B)/tests
 	$(call say,LD,$@)
-	$(Q)$(CC) $(ALL_CFLAGS) $(shell $(PKG_CONFIG) --cflags cmocka) $(LDFLAGS) -o $@ $< \
+	$(Q)$(CC) $(ALL_CFLAGS) $(shell $(PKG_CONFIG) --cflags cmocka) $(LDFLAGS) -Itests -o $@ $< \
 	    $(B)/libvibrogate.a $(shell $(PKG_CONFIG) --libs cmocka) $(ALL_LIBS)
 
 $(B)/tests/%: tests/tools/%.c $(B)/libvibrogate.a | $(B)/tests
 	$(call say,LD,$@)
 	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
 
-$(B)/obj $(B)/tests:
+$(B)/bench/%: tests/bench/%.c $(B)/libvibrogate.a | $(B)/bench
+	$(call say,LD,$@)
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
+
+$(B)/obj $(B)/tests $(B)/bench:
 	mkdir -p $@
 
 deps:
@@ -104,8 +110,8 @@ maps: deps
 	@echo "maps: $$(ls maps/*.png | wc -l) figures in maps/"
 
 bench: deps
-	@$(MAKE) --no-print-directory all
-	@VG_BUILD=$(B) sh tests/bench/bench.sh
+	@$(MAKE) --no-print-directory all $(BENCH_BIN) $(B)/tests/rate_dump
+	@VG_BUILD=$(B) PYTHON=$(PYTHON) sh tests/bench/bench.sh
 
 check: deps
 	@$(MAKE) --no-print-directory test-run

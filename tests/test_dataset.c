@@ -25,6 +25,8 @@
 #include <setjmp.h>
 #include <cmocka.h>
 
+#include "testutil.h"
+
 #include <errno.h>
 #include <ftw.h>
 #include <math.h>
@@ -206,18 +208,10 @@ static int group_setup(void **state)
     return mkdtemp(root) ? 0 : -1;
 }
 
-static int remove_entry(const char *path, const struct stat *sb, int flag, struct FTW *ftw)
-{
-    (void)sb;
-    (void)flag;
-    (void)ftw;
-    return remove(path);
-}
-
 static int group_teardown(void **state)
 {
     (void)state;
-    return nftw(root, remove_entry, 16, FTW_DEPTH | FTW_PHYS);
+    return test_remove_tree(root);
 }
 
 /* ---- files made by the writers -------------------------------------- */

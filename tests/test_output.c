@@ -21,6 +21,8 @@
 #include <setjmp.h>
 #include <cmocka.h>
 
+#include "testutil.h"
+
 #include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
@@ -260,24 +262,6 @@ static void path_in(char *buf, const char *dir, const char *name)
     int n = snprintf(buf, PATH_LEN, "%s/%s", dir, name);
 
     assert_true(n > 0 && n < PATH_LEN);
-}
-
-/* Names in dir other than "." and "..", joined by '/' in sorted order. */
-static void list_dir(const char *dir, char *buf, size_t len)
-{
-    struct dirent **ent;
-    int n = scandir(dir, &ent, NULL, alphasort), i;
-    size_t used = 0;
-
-    assert_true(n >= 0);
-    buf[0] = '\0';
-    for (i = 0; i < n; i++) {
-        if (strcmp(ent[i]->d_name, ".") != 0 && strcmp(ent[i]->d_name, "..") != 0)
-            used += (size_t)snprintf(buf + used, len - used, "%s%s", used ? "/" : "",
-                                     ent[i]->d_name);
-        free(ent[i]);
-    }
-    free(ent);
 }
 
 static char *read_all(const char *path, size_t *len)
@@ -772,7 +756,7 @@ static void temp_gone_after_commit(void **state)
 
     assert_int_equal(write_file(f, VG_FMT_NETCDF, f->dir, awkward, 4, &err), VG_OK);
     assert_int_equal(write_file(f, VG_FMT_CSV, f->dir, awkward, 4, &err), VG_OK);
-    list_dir(f->dir, names, sizeof names);
+    test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "sweep.csv/sweep.nc");
 }
 
@@ -790,13 +774,13 @@ static void temp_gone_after_abort(void **state)
     write_text(path, "earlier results\n");
     for (i = 0; i < 2; i++) {
         assert_int_equal(vg_out_open(&w, fmts[i], f->dir, &f->meta, &err), VG_OK);
-        list_dir(f->dir, names, sizeof names);
+        test_list_dir(f->dir, "/", names, sizeof names);
         assert_non_null(strstr(names, i == 0 ? ".sweep.nc." : ".sweep.csv."));
         assert_int_equal(write_chunks(w, &f->cfg, (const size_t[]){13}, 1, &err), VG_OK);
         vg_out_abort(w);
     }
     vg_out_abort(NULL);
-    list_dir(f->dir, names, sizeof names);
+    test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "sweep.csv");
     text = read_all(path, NULL);
     assert_string_equal(text, "earlier results\n");
@@ -869,7 +853,7 @@ static void error_dir_not_writable(void **state)
     assert_true(fd < 0);
     proc_errno = errno;
     expect_open_error(f, "/proc", proc_errno);
-    list_dir(f->dir, names, sizeof names);
+    test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "plain");
 }
 
@@ -905,7 +889,7 @@ static void error_write_keeps_earlier_csv(void **state)
     assert_int_equal(write_limited(f, VG_FMT_CSV, 2048, &err), VG_EIO);
     snprintf(want, sizeof want, "cannot write '%s': %s", path, strerror(EFBIG));
     assert_string_equal(err.msg, want);
-    list_dir(f->dir, names, sizeof names);
+    test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "sweep.csv");
     text = read_all(path, NULL);
     assert_string_equal(text, "earlier results\n");
@@ -1040,10 +1024,10 @@ static void error_rename(void **state)
         assert_int_equal(write_file(f, fmts[i], f->dir, awkward, 4, &err), VG_EIO);
         snprintf(want, sizeof want, "cannot write '%s': %s", path, strerror(EISDIR));
         assert_string_equal(err.msg, want);
-        list_dir(path, list, sizeof list);
+        test_list_dir(path, "/", list, sizeof list);
         assert_string_equal(list, "keep");
     }
-    list_dir(f->dir, list, sizeof list);
+    test_list_dir(f->dir, "/", list, sizeof list);
     assert_string_equal(list, "sweep.csv/sweep.nc");
 }
 
@@ -1075,7 +1059,7 @@ static void error_chunk_order(void **state)
         assert_int_equal(vg_out_write(w, 105, 1, met, &err), VG_EIO);
         vg_out_abort(w);
     }
-    list_dir(f->dir, names, sizeof names);
+    test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "");
 }
 
@@ -1099,19 +1083,11 @@ static void error_not_finite(void **state)
     assert_int_equal(vg_out_write(w, 1, 1, met, &err), VG_ENUMERIC);
     assert_non_null(strstr(err.msg, "'log10_k_total' at grid point 1 is not finite"));
     assert_int_equal(vg_out_commit(w, &err), VG_ENUMERIC);
-    list_dir(f->dir, names, sizeof names);
+    test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "");
 }
 
 /* ---- main ------------------------------------------------------------- */
-
-static int remove_entry(const char *path, const struct stat *sb, int flag, struct FTW *ftw)
-{
-    (void)sb;
-    (void)flag;
-    (void)ftw;
-    return remove(path);
-}
 
 #define T(fn) cmocka_unit_test_setup_teardown(fn, setup_3x5x7, teardown)
 
@@ -1148,6 +1124,6 @@ int main(int argc, char **argv)
         return 1;
     }
     failed = cmocka_run_group_tests(tests, NULL, NULL);
-    nftw(root, remove_entry, 16, FTW_DEPTH | FTW_PHYS);
+    test_remove_tree(root);
     return failed;
 }

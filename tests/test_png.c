@@ -27,6 +27,8 @@
 #include <setjmp.h>
 #include <cmocka.h>
 
+#include "testutil.h"
+
 #include <ctype.h>
 #include <dirent.h>
 #include <errno.h>
@@ -176,24 +178,6 @@ static void assert_file_is(const char *path, const char *text)
     assert_int_equal(len, strlen(text));
     assert_memory_equal(buf, text, len);
     free(buf);
-}
-
-/* The names in dir other than "." and "..", sorted, space separated. */
-static void list_dir(const char *dir, char *out, size_t len)
-{
-    struct dirent **names;
-    int n = scandir(dir, &names, NULL, alphasort), i;
-    size_t used = 0;
-
-    assert_true(n >= 0);
-    out[0] = '\0';
-    for (i = 0; i < n; i++) {
-        if (strcmp(names[i]->d_name, ".") != 0 && strcmp(names[i]->d_name, "..") != 0)
-            used += (size_t)snprintf(out + used, len - used, "%s%s", used ? " " : "",
-                                     names[i]->d_name);
-        free(names[i]);
-    }
-    free(names);
 }
 
 static vg_png_meta default_meta(double dpi)
@@ -467,18 +451,10 @@ static int group_setup(void **state)
     return mkdtemp(root) ? 0 : -1;
 }
 
-static int remove_entry(const char *path, const struct stat *sb, int flag, struct FTW *ftw)
-{
-    (void)sb;
-    (void)flag;
-    (void)ftw;
-    return remove(path);
-}
-
 static int group_teardown(void **state)
 {
     (void)state;
-    return nftw(root, remove_entry, 16, FTW_DEPTH | FTW_PHYS);
+    return test_remove_tree(root);
 }
 
 #define EARLIER "an earlier figure\n"
@@ -496,7 +472,7 @@ static void assert_earlier_kept(const char *dir, const char *path, const char *n
 {
     char names[256];
 
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, name);
     assert_file_is(path, EARLIER);
 }
@@ -744,7 +720,7 @@ static void temp_file_and_mode(void **state)
     new_dir_with_earlier(dir, path, "fig.png");
     assert_int_equal(vg_png_write(path, im.pixels, 5, 4, im.stride, &meta, &err), VG_OK);
     umask(old);
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, "fig.png");
     assert_int_equal(stat(path, &sb), 0);
     assert_int_equal(sb.st_mode & 0777, 0640);
@@ -769,7 +745,7 @@ static void bare_name(void **state)
     assert_int_equal(vg_png_write("here.png", im.pixels, 2, 2, im.stride, &meta, &err),
                      VG_OK);
     assert_int_equal(chdir(cwd), 0);
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, "here.png");
     free(im.pixels);
 }
@@ -798,7 +774,7 @@ static void error_missing_directory(void **state)
     new_dir(dir);
     path_in(path, dir, "nowhere/fig.png");
     expect_error(path, ENOENT, &im);
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, "");
     free(im.pixels);
 }
@@ -814,7 +790,7 @@ static void error_under_regular_file(void **state)
     write_text_file(file, "plain text\n");
     snprintf(path, sizeof path, "%s/fig.png", file);
     expect_error(path, ENOTDIR, &im);
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, "notes.txt");
     assert_file_is(file, "plain text\n");
     free(im.pixels);
@@ -834,7 +810,7 @@ static void error_rename(void **state)
     snprintf(inner, sizeof inner, "%s/keep", path);
     write_text_file(inner, "kept\n");
     expect_error(path, EISDIR, &im);
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, "fig.png");
     assert_file_is(inner, "kept\n");
     free(im.pixels);
@@ -924,7 +900,7 @@ static void error_bad_arguments(void **state)
     assert_int_equal(vg_png_write(path, im.pixels, 4, 2, im.stride, &meta, &err), VG_EIO);
     meta.dpi = 1e9; /* 3.9e10 pixels per metre > 2^31 - 1 */
     assert_int_equal(vg_png_write(path, im.pixels, 4, 2, im.stride, &meta, &err), VG_EIO);
-    list_dir(dir, names, sizeof names);
+    test_list_dir(dir, " ", names, sizeof names);
     assert_string_equal(names, "");
     free(im.pixels);
 }
