@@ -51,4 +51,8 @@ void vg_out_abort(vg_writer *w);
 /* Final path of a writer ("dir/sweep.nc"); valid until commit/abort. */
 const char *vg_out_path(const vg_writer *w);
 
+/* Its temporary file ("dir/.sweep.nc.XXXXXX"), so that a checkpoint can
+ * name it for removal after a kill; valid until commit/abort. */
+const char *vg_out_temp_path(const vg_writer *w);
+
 #endif

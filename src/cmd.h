@@ -18,7 +18,11 @@ typedef struct {
     int json;                  /* --json (point) */
     size_t nset;               /* --set KEY=VALUE, in order */
     const char **sets;
+    int resume;                /* --resume (sweep) */
+    size_t chunk;              /* --chunk (sweep, not in the usage: for tests
+                                  of checkpoints): points per chunk, 0 = default */
     const char *history;       /* time stamp and command line */
+    int fixed_time;            /* 1: the time stamp is SOURCE_DATE_EPOCH's */
     volatile sig_atomic_t *stop; /* set by SIGINT/SIGTERM */
 } vg_cmd_args;
 

@@ -1,16 +1,21 @@
 /*
  * The sweep command: load and validate the config, create the output
- * directory, stream every chunk of the grid to the chosen writers, and
- * commit them only when the whole grid is done.  Any failure or an
- * interrupt removes the temporary files; no partial output keeps a final name.
+ * directory, compute every chunk of the grid into the run's checkpoint
+ * (src/checkpoint.c), then feed the chosen writers from it and commit them
+ * only when the whole grid is done.  An interrupt or a failure removes the
+ * writers' temporary files, so no partial output keeps a final name, and
+ * keeps the checkpoint when it holds work, so that `sweep CONFIG --resume`
+ * can finish the run with the same files an uninterrupted run writes.
  */
 #define _POSIX_C_SOURCE 200809L
 #include <errno.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "checkpoint.h"
 #include "cmd.h"
 #include "vg_config.h"
 #include "vg_grid.h"
@@ -126,34 +131,181 @@ static void note_defaults(const vg_config *cfg)
                     vg_param_get((vg_param_id)p)->unit);
 }
 
-static vg_status run(const vg_cmd_args *a, const vg_config *cfg, vg_error *err)
+/* Append s to buf (of len, used *n) quoted for a POSIX shell when it needs
+ * it; 0 when it does not fit. */
+static int put_word(char *buf, size_t len, size_t *n, const char *s)
+{
+    static const char plain[] = "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                "0123456789@%+=:,./_-";
+    int quote = s[0] == '\0' || s[strspn(s, plain)] != '\0';
+
+    if (*n + 4 * strlen(s) + 4 >= len)
+        return 0;
+    buf[(*n)++] = ' ';
+    if (quote)
+        buf[(*n)++] = '\'';
+    for (; *s; s++) {
+        if (*s == '\'' && quote) { /* ' ends the quote, \' is one, ' reopens */
+            memcpy(buf + *n, "'\\''", 4);
+            *n += 4;
+        } else {
+            buf[(*n)++] = *s;
+        }
+    }
+    if (quote)
+        buf[(*n)++] = '\'';
+    buf[*n] = '\0';
+    return 1;
+}
+
+/* The command that finishes this run: its config, --out and --set, then
+ * --resume; 0 when it is too long to print whole. */
+static int resume_command(const vg_cmd_args *a, char *buf, size_t len)
+{
+    size_t n = (size_t)snprintf(buf, len, "vibrogate sweep");
+    int ok = put_word(buf, len, &n, a->config);
+
+    if (a->out_dir)
+        ok = ok && put_word(buf, len, &n, "--out") && put_word(buf, len, &n, a->out_dir);
+    for (size_t i = 0; i < a->nset; i++)
+        ok = ok && put_word(buf, len, &n, "--set") && put_word(buf, len, &n, a->sets[i]);
+    if (a->chunk) {
+        char num[32];
+        snprintf(num, sizeof num, "%zu", a->chunk);
+        ok = ok && put_word(buf, len, &n, "--chunk") && put_word(buf, len, &n, num);
+    }
+    return ok && put_word(buf, len, &n, "--resume");
+}
+
+/* The message of a stopped run whose checkpoint is kept: how to finish it. */
+static vg_status kept(const vg_cmd_args *a, size_t done, size_t total, vg_status st,
+                      vg_error *err)
+{
+    char cmd[VG_ERROR_MAX / 2], why[VG_ERROR_MAX];
+    const char *how = "to finish, run the same command with --resume added";
+
+    if (resume_command(a, cmd, sizeof cmd))
+        how = "to finish, run: ";
+    else
+        cmd[0] = '\0';
+    snprintf(why, sizeof why, "%s", err->msg);
+    if (st == VG_EINTR && done < total)
+        return vg_error_set(err, st, "interrupted after %zu of %zu points; the work so far is "
+                            "kept; %s%s", done, total, how, cmd);
+    if (st == VG_EINTR)
+        return vg_error_set(err, st, "interrupted while writing the outputs; all %zu points "
+                            "are kept; %s%s", total, how, cmd);
+    return vg_error_set(err, st, "%s; %zu of %zu points are kept; once that is fixed, %s%s",
+                        why, done, total, how, cmd);
+}
+
+/* After a failure or an interrupt: keep the checkpoint if it holds work a
+ * rerun could use (not after a numerical failure, which would recur). */
+static vg_status stopped(const vg_cmd_args *a, const vg_grid *g, vg_ckpt *ck, vg_status st,
+                         vg_error *err)
+{
+    size_t done = vg_ckpt_done(ck);
+
+    if (done > 0 && st != VG_ENUMERIC) {
+        vg_ckpt_keep(ck);
+        return kept(a, done, g->npoints, st, err);
+    }
+    vg_ckpt_discard(ck, NULL);
+    if (st == VG_EINTR)
+        return vg_error_set(err, st, "interrupted before any work was kept (0 of %zu points); "
+                            "nothing to resume", g->npoints);
+    return st;
+}
+
+/* Open the checkpoint for this run; a resumed run also takes the config
+ * path the run was started with, so that its metadata match. */
+static vg_status open_checkpoint(const vg_cmd_args *a, vg_config *cfg, const vg_grid *g,
+                                 const char *dir, size_t chunk, vg_ckpt **ck, vg_error *err)
+{
+    vg_ckpt_inputs in = {VG_VERSION, cfg->text, cfg->overrides, g->npoints, chunk,
+                         cfg->formats, cfg->metric_on};
+    vg_ckpt_request rq = {dir, a->resume, cfg->path, a->history, a->fixed_time};
+    vg_status st = vg_ckpt_open(ck, &rq, &in, err);
+    char *path;
+
+    if (st != VG_OK || strcmp(vg_ckpt_config_path(*ck), cfg->path) == 0)
+        return st;
+    path = strdup(vg_ckpt_config_path(*ck));
+    if (!path) {
+        vg_ckpt_keep(*ck);
+        return vg_error_set(err, VG_ENOMEM, "out of memory resuming the run in '%s'", dir);
+    }
+    free(cfg->path);
+    cfg->path = path;
+    return VG_OK;
+}
+
+/* The one call of the sweep engine: every point from opts->start on goes
+ * into the checkpoint. */
+static vg_status compute(const vg_grid *g, const vg_sweep_opts *opts, vg_ckpt *ck,
+                         vg_error *err)
+{
+    return vg_sweep_run(g, opts, vg_ckpt_append, ck, err);
+}
+
+/* Feed the writers from the complete checkpoint, chunk by chunk, and commit
+ * them. */
+static vg_status write_outputs(const vg_cmd_args *a, const vg_config *cfg, const vg_grid *g,
+                               const char *dir, size_t chunk, vg_ckpt *ck, vg_error *err)
+{
+    vg_out_meta meta = {cfg, g, VG_VERSION, vg_ckpt_history(ck)};
+    const char *temps[MAX_WRITERS];
+    writer_set ws;
+    vg_status st = open_all(&ws, cfg, dir, &meta, err);
+
+    if (st != VG_OK)
+        return st;
+    for (size_t i = 0; i < ws.n; i++)
+        temps[i] = vg_out_temp_path(ws.w[i]);
+    st = vg_ckpt_note_temps(ck, temps, ws.n, err);
+    if (st == VG_OK)
+        st = vg_ckpt_replay(ck, chunk, a->stop, sink, &ws, err);
+    if (st != VG_OK) {
+        abort_all(&ws);
+        return st;
+    }
+    return commit_all(&ws, a->quiet, err);
+}
+
+/* The outputs are committed: the checkpoint has served.  A failure to
+ * remove it does not undo the outputs, so it is a warning. */
+static void finish_checkpoint(vg_ckpt *ck)
+{
+    vg_error e = {VG_OK, ""};
+
+    if (vg_ckpt_discard(ck, &e) != VG_OK)
+        fprintf(stderr, "vibrogate: warning: %s; remove it by hand before the next run\n",
+                e.msg);
+}
+
+static vg_status run(const vg_cmd_args *a, vg_config *cfg, vg_error *err)
 {
     const char *dir = a->out_dir ? a->out_dir : cfg->out_dir;
     vg_grid g;
-    vg_out_meta meta;
-    vg_sweep_opts so = {a->threads, 0, !a->quiet && isatty(2), a->stop, 0};
-    writer_set ws;
+    vg_ckpt *ck = NULL;
+    size_t chunk = a->chunk ? a->chunk : VG_SWEEP_CHUNK;
+    vg_sweep_opts so = {a->threads, chunk, !a->quiet && isatty(2), a->stop, 0};
     vg_status st;
 
     vg_grid_init(&g, cfg);
-    meta.cfg = cfg;
-    meta.grid = &g;
-    meta.version = VG_VERSION;
-    meta.history = a->history;
-    st = make_dirs(dir, err);
+    st = a->resume ? VG_OK : make_dirs(dir, err);
     if (st == VG_OK)
-        st = open_all(&ws, cfg, dir, &meta, err);
+        st = open_checkpoint(a, cfg, &g, dir, chunk, &ck, err);
     if (st != VG_OK)
         return st;
-    st = vg_sweep_run(&g, &so, sink, &ws, err);
-    if (st != VG_OK) {
-        abort_all(&ws);
-        if (st == VG_EINTR)
-            vg_error_prefix(err, "sweep stopped: ");
-        return st;
-    }
-    st = commit_all(&ws, a->quiet, err);
-    if (st == VG_OK && cfg->fig.formats) {
+    so.start = vg_ckpt_done(ck);
+    st = compute(&g, &so, ck, err);
+    if (st == VG_OK)
+        st = write_outputs(a, cfg, &g, dir, chunk, ck, err);
+    if (st != VG_OK)
+        return stopped(a, &g, ck, st, err);
+    finish_checkpoint(ck);
+    if (cfg->fig.formats) {
         char nc[4200];
         snprintf(nc, sizeof nc, "%s/sweep.nc", dir);
         st = vg_cmd_figures(nc, dir, 0, NULL, a->quiet, 0, err);

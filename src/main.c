@@ -9,6 +9,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <unistd.h>
 
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_version.h>
@@ -21,11 +22,40 @@
 #endif
 
 static volatile sig_atomic_t stop_flag;
+static volatile sig_atomic_t stop_note; /* 1: say so on the first signal */
 
+/* SIGINT/SIGTERM during a sweep: the first asks it to stop after the
+ * current chunk (it then keeps its checkpoint and says how to resume); a
+ * second ends the program at once, which the checkpoint survives as it
+ * survives kill -9.  Only async-signal-safe calls (POSIX signal-safety). */
 static void on_signal(int sig)
 {
-    (void)sig;
+    static const char note[] = "\nvibrogate: stopping after the current chunk "
+                               "(interrupt again to stop at once)\n";
+
+    if (stop_flag) {
+        signal(sig, SIG_DFL);
+        raise(sig);
+        return;
+    }
     stop_flag = 1;
+    if (stop_note) {
+        ssize_t n = write(2, note, sizeof note - 1);
+        (void)n; /* nothing to do if stderr is gone */
+    }
+}
+
+static void catch_stop_signals(int note)
+{
+    struct sigaction sa;
+
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sa.sa_flags = SA_RESTART; /* writers' system calls go on as if undisturbed */
+    sigemptyset(&sa.sa_mask);
+    stop_note = note;
+    sigaction(SIGINT, &sa, NULL);
+    sigaction(SIGTERM, &sa, NULL);
 }
 
 static void usage(FILE *f)
@@ -47,6 +77,9 @@ static void usage(FILE *f)
           "  -s, --set KEY=VALUE    override a config value, e.g.\n"
           "                         --set 'parameters.gap=150 meV' (repeatable)\n"
           "  -q, --quiet            no progress line\n"
+          "      --resume           sweep: finish a run that was interrupted, from the\n"
+          "                         checkpoint it kept in the output directory (give\n"
+          "                         the same CONFIG, --out and --set)\n"
           "      --json             point: print JSON instead of a table\n"
           "  -h, --help             show this help and exit\n"
           "  -V, --version          show version information and exit\n"
@@ -74,11 +107,20 @@ static void version(void)
            "There is NO WARRANTY, to the extent permitted by law.\n");
 }
 
-/* "2026-12-01T20:00:00Z vibrogate sweep demo.ini ..." (SOURCE_DATE_EPOCH
- * replaces the clock, for reproducible files). */
-static char *history_line(int argc, char **argv)
+/* SOURCE_DATE_EPOCH, when set and not empty, replaces the clock for
+ * reproducible files (reproducible-builds.org specification); the figures
+ * read it the same way (src/draw.c). */
+static const char *fixed_epoch(void)
 {
     const char *sde = getenv("SOURCE_DATE_EPOCH");
+
+    return sde && *sde ? sde : NULL;
+}
+
+/* "2026-12-01T20:00:00Z vibrogate sweep demo.ini ..." */
+static char *history_line(int argc, char **argv)
+{
+    const char *sde = fixed_epoch();
     time_t t = sde ? (time_t)strtoll(sde, NULL, 10) : time(NULL);
     struct tm tm;
     size_t len = 32;
@@ -107,6 +149,18 @@ static int parse_threads(const char *s, int *out)
     if (*s == '\0' || *end != '\0' || v < 1 || v > 4096)
         return -1;
     *out = (int)v;
+    return 0;
+}
+
+/* Points per chunk: small ones make many checkpoints, for tests. */
+static int parse_chunk(const char *s, size_t *out)
+{
+    char *end;
+    long long v = strtoll(s, &end, 10);
+
+    if (*s == '\0' || *end != '\0' || v < 1 || v > (1LL << 24))
+        return -1;
+    *out = (size_t)v;
     return 0;
 }
 
@@ -141,7 +195,8 @@ static int parse_options(int argc, char **argv, vg_cmd_args *a)
         {"out", required_argument, NULL, 'o'},  {"threads", required_argument, NULL, 'j'},
         {"set", required_argument, NULL, 's'},  {"quiet", no_argument, NULL, 'q'},
         {"json", no_argument, NULL, 'J'},       {"help", no_argument, NULL, 'h'},
-        {"version", no_argument, NULL, 'V'},    {NULL, 0, NULL, 0}};
+        {"version", no_argument, NULL, 'V'},    {"resume", no_argument, NULL, 'R'},
+        {"chunk", required_argument, NULL, 'C'}, {NULL, 0, NULL, 0}};
     int c;
 
     opterr = 0;
@@ -156,6 +211,12 @@ static int parse_options(int argc, char **argv, vg_cmd_args *a)
         case 's': a->sets[a->nset++] = optarg; break;
         case 'q': a->quiet = 1; break;
         case 'J': a->json = 1; break;
+        case 'R': a->resume = 1; break;
+        case 'C':
+            if (parse_chunk(optarg, &a->chunk) != 0)
+                return usage_error("'--chunk' must be a whole number from 1 to 16777216 "
+                                   "(got '%s')", optarg);
+            break;
         case 'h': usage(stdout); exit(0);
         case 'V': version(); exit(0);
         case ':': return usage_error("option '%s' needs a value", argv[optind - 1]);
@@ -165,43 +226,51 @@ static int parse_options(int argc, char **argv, vg_cmd_args *a)
     return 0;
 }
 
+/* The command after the options, checked against them: 0 or VG_EUSAGE. */
+static int pick_command(int argc, char **argv, const vg_cmd_args *a, command_fn *cmd)
+{
+    if (optind >= argc)
+        return usage_error("%s", "missing command (sweep, point, check, render or spectrum)");
+    *cmd = find_command(argv[optind]);
+    if (!*cmd)
+        return usage_error("unknown command '%s' (expected sweep, point, check, render or "
+                           "spectrum)", argv[optind]);
+    if (optind + 2 != argc)
+        return usage_error("'%s' takes exactly one file argument", argv[optind]);
+    if (a->resume && *cmd != vg_cmd_sweep)
+        return usage_error("'--resume' applies to sweep only, not to '%s'", argv[optind]);
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
     vg_cmd_args a = {0};
     vg_error err = {VG_OK, ""};
-    command_fn cmd;
-    int rc;
+    command_fn cmd = NULL;
+    int rc = VG_ENOMEM;
 
     gsl_set_error_handler_off();
     a.sets = calloc((size_t)argc + 1, sizeof *a.sets);
-    if (!a.sets)
-        return VG_ENOMEM;
+    a.history = history_line(argc, argv); /* before getopt reorders argv */
+    if (!a.sets || !a.history) {
+        fputs("vibrogate: out of memory\n", stderr);
+        goto out;
+    }
     rc = parse_options(argc, argv, &a);
+    if (rc == 0)
+        rc = pick_command(argc, argv, &a, &cmd);
     if (rc != 0)
         goto out;
-    if (optind >= argc) {
-        rc = usage_error("%s", "missing command (sweep, point, check, render or spectrum)");
-        goto out;
-    }
-    cmd = find_command(argv[optind]);
-    if (!cmd) {
-        rc = usage_error("unknown command '%s' (expected sweep, point, check, render or spectrum)", argv[optind]);
-        goto out;
-    }
-    if (optind + 2 != argc) {
-        rc = usage_error("'%s' takes exactly one file argument", argv[optind]);
-        goto out;
-    }
     a.config = argv[optind + 1];
-    a.history = history_line(argc, argv);
+    a.fixed_time = fixed_epoch() != NULL;
     a.stop = &stop_flag;
-    signal(SIGINT, on_signal);
-    signal(SIGTERM, on_signal);
+    if (cmd == vg_cmd_sweep) /* the only command that stops cleanly */
+        catch_stop_signals(!a.quiet && isatty(2));
     rc = (int)cmd(&a, &err);
     if (rc != VG_OK)
         fprintf(stderr, "vibrogate: %s\n", err.msg);
-    free((char *)a.history);
 out:
+    free((char *)a.history);
     free(a.sets);
     return rc;
 }

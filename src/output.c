@@ -280,3 +280,8 @@ const char *vg_out_path(const vg_writer *w)
 {
     return w->path;
 }
+
+const char *vg_out_temp_path(const vg_writer *w)
+{
+    return w->tmp;
+}
