@@ -4,6 +4,7 @@
 #   make demo       install missing Debian packages, run the demo scenario
 #   make check      install missing Debian packages, build, run every test
 #   make install    PREFIX=/usr/local DESTDIR= (binary and man page)
+#   make MPI=1      the cluster build (Open MPI, docs/cluster.md) in build-mpi/
 #
 # The user's CFLAGS, CPPFLAGS and LDFLAGS are respected; OPENMP=0 builds
 # without OpenMP; WERROR=1 (set automatically when CI=true) adds -Werror.
@@ -16,6 +17,7 @@ DESTDIR    ?=
 PKG_CONFIG ?= pkg-config
 PYTHON     ?= /usr/bin/python3
 OPENMP     ?= 1
+MPI        ?= 0
 CFLAGS     ?= -O2 -g
 
 ifeq ($(CI),true)
@@ -30,16 +32,23 @@ endif
 ifeq ($(OPENMP),1)
 OMPFLAGS  := -fopenmp
 endif
+# The cluster build has a directory of its own, so that its objects (compiled
+# with VG_MPI) never mix with the normal build's.
+ifeq ($(MPI),1)
+PKGS      += ompi-c
+MPIFLAGS  := -DVG_MPI
+B         := build-mpi
+else
+B         := build
+endif
 
 # Recursive (=) so that pkg-config runs after the deps step has installed it.
 # Library headers as system headers, so our warning flags judge only our code.
 PKG_CFLAGS = $(patsubst -I%,-isystem %,$(shell $(PKG_CONFIG) --cflags $(PKGS)))
 PKG_LIBS   = $(shell $(PKG_CONFIG) --libs $(PKGS))
-ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
+ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) $(MPIFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
              -DVG_VERSION='"$(VERSION)"' -DVG_INIH_VERSION='"$(shell $(PKG_CONFIG) --modversion inih)"' $(CPPFLAGS) $(CFLAGS)
 ALL_LIBS   = $(PKG_LIBS) -lm
-
-B         := build
 
 # V=1 shows the full commands.
 ifeq ($(V),1)

@@ -42,7 +42,8 @@ vg_status vg_sweep_run(const vg_grid *g, const vg_sweep_opts *opts,
  * OpenMP threads, and rank 0 receives them in order and alone calls the
  * sink (other ranks pass sink = NULL).  Output is identical to
  * vg_sweep_run's.  Without MPI it is vg_sweep_run.  Every rank returns the
- * same status. */
+ * same status.  opts->start and opts->chunk are rank 0's (the others' are
+ * ignored), so only rank 0 needs to read a checkpoint. */
 vg_status vg_sweep_run_dist(const vg_grid *g, const vg_sweep_opts *opts,
                             vg_sweep_sink sink, void *ctx, vg_error *err);
 
@@ -53,6 +54,12 @@ vg_status vg_dist_init(int *argc, char ***argv, vg_error *err);
 int vg_dist_rank(void);
 int vg_dist_size(void);
 void vg_dist_finalize(void);
+
+/* One status for every rank, after a step some ranks may fail alone (a
+ * collective call: every rank makes it).  If any rank's st is not VG_OK,
+ * every rank returns the status and message of the lowest such rank
+ * (prefixed "rank R: " when R > 0); otherwise VG_OK.  Without MPI: st. */
+vg_status vg_dist_agree(vg_status st, vg_error *err);
 
 /* Threads the sweep will use for opts (1 without OpenMP). */
 int vg_sweep_threads(const vg_sweep_opts *opts);

@@ -245,7 +245,7 @@ static vg_status open_checkpoint(const vg_cmd_args *a, vg_config *cfg, const vg_
 static vg_status compute(const vg_grid *g, const vg_sweep_opts *opts, vg_ckpt *ck,
                          vg_error *err)
 {
-    return vg_sweep_run(g, opts, vg_ckpt_append, ck, err);
+    return vg_sweep_run_dist(g, opts, ck ? vg_ckpt_append : NULL, ck, err);
 }
 
 /* Feed the writers from the complete checkpoint, chunk by chunk, and commit
@@ -283,27 +283,16 @@ static void finish_checkpoint(vg_ckpt *ck)
                 e.msg);
 }
 
-static vg_status run(const vg_cmd_args *a, vg_config *cfg, vg_error *err)
+/* Rank 0 after the computation (status st): outputs, figures, or what to
+ * do about a stop. */
+static vg_status conclude(const vg_cmd_args *a, const vg_config *cfg, const vg_grid *g,
+                          const char *dir, size_t chunk, vg_ckpt *ck, vg_status st,
+                          vg_error *err)
 {
-    const char *dir = a->out_dir ? a->out_dir : cfg->out_dir;
-    vg_grid g;
-    vg_ckpt *ck = NULL;
-    size_t chunk = a->chunk ? a->chunk : VG_SWEEP_CHUNK;
-    vg_sweep_opts so = {a->threads, chunk, !a->quiet && isatty(2), a->stop, 0};
-    vg_status st;
-
-    vg_grid_init(&g, cfg);
-    st = a->resume ? VG_OK : make_dirs(dir, err);
     if (st == VG_OK)
-        st = open_checkpoint(a, cfg, &g, dir, chunk, &ck, err);
+        st = write_outputs(a, cfg, g, dir, chunk, ck, err);
     if (st != VG_OK)
-        return st;
-    so.start = vg_ckpt_done(ck);
-    st = compute(&g, &so, ck, err);
-    if (st == VG_OK)
-        st = write_outputs(a, cfg, &g, dir, chunk, ck, err);
-    if (st != VG_OK)
-        return stopped(a, &g, ck, st, err);
+        return stopped(a, g, ck, st, err);
     finish_checkpoint(ck);
     if (cfg->fig.formats) {
         char nc[4200];
@@ -313,21 +302,48 @@ static vg_status run(const vg_cmd_args *a, vg_config *cfg, vg_error *err)
     return st;
 }
 
+/* Every rank computes (vg_sweep_run_dist); rank 0 alone keeps the
+ * checkpoint and writes, and tells the others how it went. */
+static vg_status run(const vg_cmd_args *a, vg_config *cfg, vg_error *err)
+{
+    const char *dir = a->out_dir ? a->out_dir : cfg->out_dir;
+    vg_grid g;
+    vg_ckpt *ck = NULL;
+    size_t chunk = a->chunk ? a->chunk : VG_SWEEP_CHUNK;
+    vg_sweep_opts so = {a->threads, chunk, !a->quiet && isatty(2), a->stop, 0};
+    int root = vg_dist_rank() == 0;
+    vg_status st = VG_OK;
+
+    vg_grid_init(&g, cfg);
+    if (root)
+        st = a->resume ? VG_OK : make_dirs(dir, err);
+    if (root && st == VG_OK)
+        st = open_checkpoint(a, cfg, &g, dir, chunk, &ck, err);
+    st = vg_dist_agree(st, err);
+    if (st != VG_OK)
+        return st;
+    so.start = root ? vg_ckpt_done(ck) : 0; /* the others take rank 0's */
+    st = compute(&g, &so, ck, err);
+    if (root)
+        st = conclude(a, cfg, &g, dir, chunk, ck, st, err);
+    return vg_dist_agree(root ? st : VG_OK, err);
+}
+
 vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err)
 {
     vg_config cfg;
     vg_status st = vg_config_load(&cfg, a->config, a->nset, a->sets, err);
+    int loaded = st == VG_OK;
 
-    if (st != VG_OK)
-        return st;
-    st = vg_config_check_maps(&cfg, err);
-    if (st != VG_OK) {
-        vg_config_free(&cfg);
-        return st;
-    }
-    if (!a->quiet)
+    if (loaded)
+        st = vg_config_check_maps(&cfg, err);
+    /* Each rank reads the config; a rank that cannot must stop them all. */
+    st = vg_dist_agree(st, err);
+    if (st == VG_OK && !a->quiet)
         note_defaults(&cfg);
-    st = run(a, &cfg, err);
-    vg_config_free(&cfg);
+    if (st == VG_OK)
+        st = run(a, &cfg, err);
+    if (loaded)
+        vg_config_free(&cfg);
     return st;
 }

@@ -16,6 +16,7 @@
 #include <netcdf.h>
 
 #include "cmd.h"
+#include "vg_sweep.h"
 
 #ifndef VG_INIH_VERSION
 #define VG_INIH_VERSION "unknown"
@@ -262,14 +263,23 @@ int main(int argc, char **argv)
     if (rc != 0)
         goto out;
     a.config = argv[optind + 1];
+    rc = (int)vg_dist_init(&argc, &argv, &err);
+    if (rc != VG_OK) {
+        fprintf(stderr, "vibrogate: %s\n", err.msg);
+        goto out;
+    }
+    if (vg_dist_rank() != 0) /* one voice: rank 0's */
+        a.quiet = 1;
     a.fixed_time = fixed_epoch() != NULL;
     a.stop = &stop_flag;
     if (cmd == vg_cmd_sweep) /* the only command that stops cleanly */
         catch_stop_signals(!a.quiet && isatty(2));
-    rc = (int)cmd(&a, &err);
-    if (rc != VG_OK)
+    /* Only sweep is spread over ranks; other commands run on rank 0 alone. */
+    rc = (cmd == vg_cmd_sweep || vg_dist_rank() == 0) ? (int)cmd(&a, &err) : VG_OK;
+    if (rc != VG_OK && vg_dist_rank() == 0)
         fprintf(stderr, "vibrogate: %s\n", err.msg);
 out:
+    vg_dist_finalize();
     free((char *)a.history);
     free(a.sets);
     return rc;
