@@ -11,9 +11,16 @@
  * handler off (main calls gsl_set_error_handler_off() once).
  *
  * Channel window (docs/theory.md, "Channel window"): a_n = ln W_n + ln G_n is
- * concave in n, so the terms are unimodal.  The peak is found by bisection on
- * the sign of a_{n+1} - a_n, the sum runs outward from it, and a side stops
- * when the geometric bound on its tail falls below tol/4 of the sum so far.
+ * concave in n, so the terms are unimodal.  The peak is found by walking
+ * uphill from the Gaussian centre (bisection on the sign of a_{n+1} - a_n
+ * when it is more than a few steps away), the sum runs outward from it, and
+ * a side stops when the geometric bound on its tail falls below tol/4 of the
+ * sum so far.
+ *
+ * Cost (docs/performance.md): on a sweep the weights come from the caller's
+ * table, so a point costs one exp per channel summed (the tail bound needs
+ * only the ratio of two terms already formed), the logs of the sums and of
+ * the prefactor, and the few terms of the walk, which the sums reuse.
  */
 #include <float.h>
 #include <limits.h>
@@ -30,6 +37,13 @@
  * (|gap - reorganization| / mode <= 6000 plus the window's width at 1 meV,
  * 5000 K); the Bessel branches are verified against mpmath up to n = 1e5. */
 #define CHANNEL_LIMIT 100000L
+
+/* 2^-54, a quarter of DBL_EPSILON, below half an ulp of any x >= 1: a
+ * term this much smaller than a sum >= 1 does not change the rounded sum. */
+#define HALF_ULP (0.25 * DBL_EPSILON)
+
+/* Steps the peak search walks before it bisects instead. */
+#define PEAK_WALK 8
 
 /* Which form a value of ln I_n(x) comes in (so that callers can fold the
  * large leading term analytically instead of cancelling it numerically). */
@@ -69,17 +83,6 @@ static double ln_fact(long n)
 static double ln_one_minus_exp(double y)
 {
     return log(-expm1(-y));
-}
-
-/* log(e^a + e^b) without overflow; either may be -inf. */
-static double ln_add_exp(double a, double b)
-{
-    double hi = a > b ? a : b;
-    double lo = a > b ? b : a;
-
-    if (hi == -HUGE_VAL)
-        return hi;
-    return hi + log1p(exp(lo - hi));
 }
 
 /* Power series of I_n (A&S 9.6.10) without its leading (x/2)^n:
@@ -284,13 +287,20 @@ vg_status vg_rate_mode_init(vg_rate_mode *m, vg_mode_statistics stats,
 }
 
 /* ln of the golden-rule prefactor (2 pi / hbar) V^2 (4 pi lam kT)^-1/2 in
- * s^-1, with V, lam, kT converted from meV to eV. */
+ * s^-1, with V, lam, kT converted from meV to eV (factor M = 1000):
+ *   ln(2 pi / hbar) - ln M - ln(4 pi) / 2 + ln(V^2 / sqrt(lam kT)),
+ * one log of the meV quantities where V^2 / sqrt(lam kT) is a normal double
+ * (the constant part folds at compile time), one log per factor otherwise. */
 static double ln_prefactor(double coupling, double reorg, double kT)
 {
     double ln_mev = log(VG_MEV_PER_EV);
-    double ln_v = log(coupling) - ln_mev;
-    double ln_var = log(4.0 * VG_PI) + log(reorg) + log(kT) - 2.0 * ln_mev;
+    double y = coupling * coupling / sqrt(reorg * kT);
+    double ln_v, ln_var;
 
+    if (isnormal(y))
+        return log(2.0 * VG_PI / VG_HBAR_EVS) - ln_mev - 0.5 * log(4.0 * VG_PI) + log(y);
+    ln_v = log(coupling) - ln_mev;
+    ln_var = log(4.0 * VG_PI) + log(reorg) + log(kT) - 2.0 * ln_mev;
     return log(2.0 * VG_PI / VG_HBAR_EVS) + 2.0 * ln_v - 0.5 * ln_var;
 }
 
@@ -302,11 +312,22 @@ static double ln_gauss(double d, double n_mode, double inv4lkt)
     return -u * u * inv4lkt;
 }
 
-static double chan_a(chan_seq *s, long n)
+/* ln W_n through the cache: the filled-entry case inline (it is the hot
+ * path of a sweep), everything else through vg_rate_ln_weight_cached.  The
+ * index is formed in unsigned arithmetic so that n < tab_lo wraps to a value
+ * past the table instead of overflowing. */
+static inline double ln_w(vg_rate_mode *m, long n)
 {
-    double lw = vg_rate_ln_weight_cached(s->m, n);
+    size_t i = (size_t)((unsigned long)n - (unsigned long)m->tab_lo);
 
-    return lw + ln_gauss(s->d, (double)n * s->m->mode, s->inv4lkt);
+    if (i < m->tab_len && m->tab_set[i])
+        return m->tab[i];
+    return vg_rate_ln_weight_cached(m, n);
+}
+
+static inline double chan_a(chan_seq *s, long n)
+{
+    return ln_w(s->m, n) + ln_gauss(s->d, (double)n * s->m->mode, s->inv4lkt);
 }
 
 static double chan_step(chan_seq *s, long n)
@@ -321,8 +342,8 @@ static double chan_step(chan_seq *s, long n)
 static int peak_bracket(chan_seq *s, double centre, long *lo, long *hi)
 {
     double S = s->m->S;
-    long l = (long)floor(fmin(centre, S));
-    long h = (long)ceil(fmax(centre, S));
+    long l = (long)floor(centre < S ? centre : S);
+    long h = (long)ceil(centre > S ? centre : S);
 
     l = l < s->nmin ? s->nmin : l;
     h = h < s->nmin ? s->nmin : h;
@@ -343,9 +364,23 @@ static int peak_bracket(chan_seq *s, double centre, long *lo, long *hi)
     return 1;
 }
 
+/* The peak p and its neighbours: a[0] = a_{p-1} (-inf below nmin), a[1] =
+ * a_p, a[2] = a_{p+1}. */
+typedef struct {
+    long p;
+    double a[3];
+} chan_peak;
+
+static void peak_fill(chan_seq *s, chan_peak *pk)
+{
+    pk->a[0] = pk->p > s->nmin ? chan_a(s, pk->p - 1) : -HUGE_VAL;
+    pk->a[1] = chan_a(s, pk->p);
+    pk->a[2] = chan_a(s, pk->p + 1);
+}
+
 /* Largest term: bisection on the sign of a_{n+1} - a_n, which never increases
  * with n because a_n is concave (docs/theory.md). */
-static int find_peak(chan_seq *s, double centre, long *peak)
+static int bisect_peak(chan_seq *s, double centre, chan_peak *pk)
 {
     long lo, hi;
 
@@ -358,68 +393,162 @@ static int find_peak(chan_seq *s, double centre, long *peak)
         else
             lo = mid + 1;
     }
-    *peak = lo;
+    pk->p = lo;
+    peak_fill(s, pk);
     return 1;
 }
 
-/* Sum exp(a_n - a_ref) for n = start, start+dir, ... (n = 0 excluded: it is
- * the elastic channel) into *sum.  Once the step ratio r = t_n / t_{n-dir} is
- * below 1, every later ratio is at most r (log-concavity), so the rest of the
- * side is at most t_n r / (1 - r); stop when that is below tol4 * *sum.
- * Returns 0 if the side runs past CHANNEL_LIMIT. */
-static int sum_side(chan_seq *s, long start, long dir, double a_ref, double tol4,
-                    double *sum, long *last)
+/* The same peak (the smallest n with a_{n+1} <= a_n) by walking uphill from
+ * channel g, at most PEAK_WALK steps; 0 if it is farther.  On a sweep the
+ * peak is nearly always within a step or two of the Gaussian centre, so the
+ * walk costs the peak's three terms and rarely more, where bisection costs
+ * a dozen; the terms are reused by the sums. */
+static int walk_peak(chan_seq *s, long g, chan_peak *pk)
 {
-    double a_prev = a_ref;
+    double lo, mid = chan_a(s, g), hi = chan_a(s, g + 1);
 
-    *last = start - dir;
-    for (long n = start; n >= s->nmin; n += dir) {
-        double a, t, lr;
-
-        if (n > CHANNEL_LIMIT || n < -CHANNEL_LIMIT)
+    if (hi > mid) { /* a_{g+1} > a_g: the peak lies above g */
+        int k = 0;
+        do {
+            lo = mid;
+            mid = hi;
+            hi = chan_a(s, ++g + 1);
+        } while (hi > mid && ++k < PEAK_WALK);
+        if (hi > mid)
             return 0;
-        a = chan_a(s, n);
-        if (isnan(a)) { /* only from a corrupted mode record: let the guard report it */
-            *sum = NAN;
-            return 1;
+    } else {
+        int k = 0;
+        while (g > s->nmin && (lo = chan_a(s, g - 1)) >= mid) {
+            if (++k > PEAK_WALK)
+                return 0;
+            hi = mid;
+            mid = lo;
+            g--;
         }
-        t = exp(a - a_ref);
-        if (n != 0)
-            *sum += t;
-        *last = n;
-        lr = a - a_prev;
-        if (lr < 0.0 && t * exp(lr) / -expm1(lr) <= tol4 * *sum)
-            return 1;
-        a_prev = a;
+        lo = g > s->nmin ? lo : -HUGE_VAL;
     }
+    pk->p = g;
+    pk->a[0] = lo;
+    pk->a[1] = mid;
+    pk->a[2] = hi;
     return 1;
 }
 
-/* ln of the assisted part sum_{n != 0} W_n G_n, and the channel window. */
+/* The peak: walked from the integer part of the Gaussian centre, bisected
+ * when the walk is too long. */
+static int find_peak(chan_seq *s, double centre, chan_peak *pk)
+{
+    long g = (long)centre; /* |centre| <= CHANNEL_LIMIT: checked by the caller */
+
+    g = g < s->nmin ? s->nmin : g;
+    return walk_peak(s, g, pk) || bisect_peak(s, centre, pk);
+}
+
+/* Running state of the assisted sum: terms t_n = exp(a_n - a_ref). */
+typedef struct {
+    double a_ref; /* a_q, the largest assisted term */
+    double tol4;  /* a quarter of the relative tolerance */
+    double sum;   /* sum of t_n over the assisted channels so far */
+    double t0;    /* t_0 once a side has passed n = 0, else -1 */
+} chan_sum;
+
+/* Add t_n for n = start, start+dir, ... (a_start = a_{start} given), except
+ * n = 0 (the elastic channel), whose t_0 is kept in acc->t0.  Once the step
+ * ratio r = t_n / t_{n-dir} is below 1, every later ratio is at most r
+ * (log-concavity), so the rest of the side is at most
+ * t_n r / (1 - r) = t_n^2 / (t_{n-dir} - t_n); stop when that is below
+ * tol4 * sum.  Tested without a division and so that it also stops when
+ * t_n = 0 or the sum is NaN (a corrupted mode record, which the final guard
+ * reports).  One exp per term.  The upward side may not pass CHANNEL_LIMIT
+ * (returns 0); the downward one ends at nmin.  *last is the last channel
+ * added (start - dir if none). */
+static inline int sum_side(chan_seq *s, chan_sum *acc, long start, long dir,
+                           double a_start, long *last)
+{
+    long end = dir > 0 ? CHANNEL_LIMIT : s->nmin;
+    double t_prev = 1.0; /* t of the start's neighbour, the reference term */
+    double a = a_start;
+    long n = start;
+
+    if (dir > 0 ? start > end : start < end) {
+        *last = start - dir;
+        return dir < 0;
+    }
+    for (;; n += dir, a = chan_a(s, n)) {
+        double t = exp(a - acc->a_ref);
+        int done;
+
+        if (n != 0)
+            acc->sum += t;
+        else
+            acc->t0 = t;
+        done = !(t * t > acc->tol4 * acc->sum * (t_prev - t));
+        if (done || n == end) {
+            *last = n;
+            return done || dir < 0;
+        }
+        t_prev = t;
+    }
+}
+
+/* ln of the Franck-Condon total W_0 G_0 + assisted sum, as
+ * a_q + ln(sum + t_0) with t_0 = exp(a_0 - a_q): from the sum if a side
+ * passed n = 0 (it always does when the peak is n = 0), else computed, which
+ * is safe because then a_0 <= a_q.  Where one part is below half an ulp of
+ * the other (ratio below 2^-54; the sum is at least 1), the rounded sum is
+ * the larger part, so its log is the total, and no exp or log is spent;
+ * that is also what keeps a t_0 beyond DBL_MAX out. */
+static double ln_total(const vg_rates *out, const chan_sum *acc)
+{
+    double t0;
+
+    if (out->ln_fc_elastic - acc->a_ref < log(HALF_ULP)) /* folded at compile time */
+        return out->ln_fc_assisted;
+    t0 = acc->t0 >= 0.0 ? acc->t0 : exp(out->ln_fc_elastic - acc->a_ref);
+    if (!(t0 * HALF_ULP <= acc->sum))
+        return out->ln_fc_elastic;
+    return acc->a_ref + log(acc->sum + t0);
+}
+
+/* Sum both sides outward from the largest assisted term q, given the peak;
+ * the window into *lo, *hi. */
+static int sum_window(chan_seq *s, const chan_peak *pk, chan_sum *acc, long *lo, long *hi)
+{
+    long q = pk->p;
+    double a_up = pk->a[2], a_down = pk->a[0];
+
+    acc->a_ref = pk->a[1];
+    if (q == 0) { /* the largest assisted term is a neighbour of the elastic peak */
+        q = pk->a[2] >= pk->a[0] ? 1 : -1;
+        acc->a_ref = q > 0 ? pk->a[2] : pk->a[0];
+        a_up = q > 0 ? chan_a(s, 2) : pk->a[1];
+        a_down = q > 0 ? pk->a[1] : chan_a(s, -2);
+    }
+    if (!sum_side(s, acc, q + 1, 1, a_up, hi) || !sum_side(s, acc, q - 1, -1, a_down, lo))
+        return 0;
+    *lo = *lo < q ? *lo : q;
+    *hi = *hi > q ? *hi : q;
+    return 1;
+}
+
+/* ln of the assisted part sum_{n != 0} W_n G_n, the total, and the channel
+ * window. */
 static vg_status assisted_sum(chan_seq *s, double tol, vg_rates *out, vg_error *err)
 {
-    long p, q, lo, hi;
-    double a_q, sum = 1.0;
+    chan_peak pk;
+    chan_sum acc = {0.0, 0.25 * tol, 1.0, -1.0};
     double centre = s->d / s->m->mode;
 
     if (!(fabs(centre) <= (double)CHANNEL_LIMIT) || s->m->S > (double)CHANNEL_LIMIT
-        || !find_peak(s, centre, &p))
-        goto out_limit;
-    q = p != 0 ? p : (chan_a(s, 1) >= chan_a(s, -1) ? 1 : -1);
-    a_q = chan_a(s, q);
-    if (!sum_side(s, q + 1, 1, a_q, 0.25 * tol, &sum, &hi)
-        || !sum_side(s, q - 1, -1, a_q, 0.25 * tol, &sum, &lo))
-        goto out_limit;
-    out->ln_fc_assisted = a_q + log(sum);
-    out->n_peak = p;
-    out->n_lo = lo < q ? lo : q;
-    out->n_hi = hi > q ? hi : q;
+        || !find_peak(s, centre, &pk) || !sum_window(s, &pk, &acc, &out->n_lo, &out->n_hi))
+        return vg_error_set(err, VG_ENUMERIC,
+                            "the channel window needs |n| > %ld quanta of 'mode' "
+                            "(gap - reorganization %g meV, mode %g meV, huang_rhys %g)",
+                            CHANNEL_LIMIT, s->d, s->m->mode, s->m->S);
+    out->ln_fc_assisted = acc.a_ref + log(acc.sum);
+    out->ln_fc_total = ln_total(out, &acc);
+    out->n_peak = pk.p;
     return VG_OK;
-out_limit:
-    return vg_error_set(err, VG_ENUMERIC,
-                        "the channel window needs |n| > %ld quanta of 'mode' "
-                        "(gap - reorganization %g meV, mode %g meV, huang_rhys %g)",
-                        CHANNEL_LIMIT, s->d, s->m->mode, s->m->S);
 }
 
 /* The checks of vg_rate_eval, one message per way to fail. */
@@ -451,7 +580,6 @@ static vg_status point_check(const vg_rate_mode *m, double gap, double reorg,
 /* Fill the rate fields from the V- and prefactor-free logs. */
 static void finish_rates(vg_rates *out, double ln_p, int coupling_zero)
 {
-    out->ln_fc_total = ln_add_exp(out->ln_fc_elastic, out->ln_fc_assisted);
     out->coupling_zero = coupling_zero;
     out->ln_k_elastic = coupling_zero ? -HUGE_VAL : ln_p + out->ln_fc_elastic;
     out->ln_k_assisted = coupling_zero ? -HUGE_VAL : ln_p + out->ln_fc_assisted;
@@ -461,7 +589,7 @@ static void finish_rates(vg_rates *out, double ln_p, int coupling_zero)
 
 /* No NaN and no +inf may leave the kernel; -inf only where a flag says the
  * rate is exactly zero. */
-static int rates_valid(const vg_rates *r)
+static int rates_valid_each(const vg_rates *r)
 {
     int fc = isfinite(r->ln_fc_elastic) && isfinite(r->ln_fc_total)
              && isfinite(r->ln_fc_bare)
@@ -473,15 +601,30 @@ static int rates_valid(const vg_rates *r)
     return fc && k;
 }
 
+/* The same, with a fast path for the usual case: with neither flag set every
+ * value must be finite, and a sum of finite logs (far below 1e300 in
+ * magnitude) is finite exactly when each term is. */
+static int rates_valid(const vg_rates *r)
+{
+    if (!r->coupling_zero && !r->assisted_zero
+        && isfinite(r->ln_fc_elastic + r->ln_fc_assisted + r->ln_fc_total + r->ln_fc_bare
+                    + r->ln_k_elastic + r->ln_k_assisted + r->ln_k_total + r->ln_k_bare))
+        return 1;
+    return rates_valid_each(r);
+}
+
 vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,
                        double coupling_meV, double tol, vg_rates *out,
                        vg_error *err)
 {
     vg_status st = point_check(m, gap_meV, reorg_meV, coupling_meV, tol, out, err);
     chan_seq s;
+    double ln_p;
 
     if (st != VG_OK)
         return st;
+    /* first, so that its sqrt, division and log overlap the channel sums */
+    ln_p = coupling_meV == 0.0 ? 0.0 : ln_prefactor(coupling_meV, reorg_meV, m->kT);
     s.m = m;
     s.d = gap_meV - reorg_meV;
     s.inv4lkt = 1.0 / (4.0 * reorg_meV * m->kT);
@@ -489,12 +632,12 @@ vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,
     out->ln_fc_bare = ln_gauss(s.d, 0.0, s.inv4lkt);
     out->ln_fc_elastic = chan_a(&s, 0);
     out->ln_fc_assisted = -HUGE_VAL;
+    out->ln_fc_total = out->ln_fc_elastic;
     out->assisted_zero = m->S == 0.0;
     out->n_lo = out->n_hi = out->n_peak = 0;
     if (!out->assisted_zero && (st = assisted_sum(&s, tol, out, err)) != VG_OK)
         return st;
-    finish_rates(out, coupling_meV == 0.0 ? 0.0 : ln_prefactor(coupling_meV, reorg_meV, m->kT),
-                 coupling_meV == 0.0);
+    finish_rates(out, ln_p, coupling_meV == 0.0);
     if (!rates_valid(out))
         return vg_error_set(err, VG_ENUMERIC,
                             "rate kernel produced a non-finite value at gap %g meV, "

@@ -129,13 +129,17 @@ static void point(worker *w, const vg_grid *g, const reach *r, size_t flat, doub
     vg_metrics_from_rates(&rates, out);
 }
 
+/* Points are dealt to threads in blocks of 1024 rather than one half of the
+ * chunk each, because cost varies along the grid (larger reorganization,
+ * more channels); each point is still computed alone, so the result does not
+ * depend on the split. */
 static void compute_chunk(worker *ws, int nthreads, const vg_grid *g, const reach *r,
                           size_t start, size_t count, double *metrics)
 {
     long i, n = (long)count;
 
 #ifdef _OPENMP
-#pragma omp parallel for schedule(static) num_threads(nthreads)
+#pragma omp parallel for schedule(static, 1024) num_threads(nthreads)
 #endif
     for (i = 0; i < n; i++) {
 #ifdef _OPENMP

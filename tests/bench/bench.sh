@@ -1,12 +1,19 @@
 #!/bin/sh
 # Benchmarks (make bench).  Reports figures; asserts nothing, and nothing
-# here is part of make check.
+# here is part of make check.  What each number means: docs/performance.md.
 #
+#   sweep:  tests/bench/bench_sweep.c, a 10^7-point gap x reorganization x
+#           huang_rhys x temperature thermal grid through the sweep engine
+#           at 1 thread and at every core, the exp() ceiling of this CPU and
+#           the peak memory, all in one process; against
+#           tests/bench/numpy_sweep.py, the same grid written by hand in
+#           NumPy (timed on a 10^6-point sub-grid, checked against the tool).
 #   render: the 500 x 500 grid in 4 x 4 panels of tests/bench/render.ini,
 #           drawn from its saved sweep.nc; reported as cells per second and
 #           as a ratio against computing the same grid in the same run.
 set -eu
 B=${VG_BUILD:-build}
+PY=${PYTHON:-/usr/bin/python3}
 VG="$B/vibrogate"
 T=$(mktemp -d)
 trap 'rm -rf "$T"' EXIT
@@ -14,13 +21,51 @@ trap 'rm -rf "$T"' EXIT
 now() { date +%s.%N; }
 secs() { awk -v a="$1" -v b="$2" 'BEGIN { print b - a }'; }
 calc() { awk "BEGIN { print $1 }"; }
+# value of KEY in the "key value" file $2
+val() { awk -v k="$1" '$1 == k { print $2 }' "$2"; }
 
+# ---------------------------------------------------------------- sweep ---
+"$B/bench/bench_sweep" >"$T/tool"
+"$B/bench/bench_sweep" --rss 2 >"$T/rss-small"
+"$B/bench/bench_sweep" --rss 20 >"$T/rss-full"
+VG_BUILD="$B" "$PY" tests/bench/numpy_sweep.py >"$T/numpy" || true
+r1=$(val pts_per_s_1 "$T/tool")
+rn=$(val pts_per_s_n "$T/tool")
+np=$(val numpy_pts_per_s "$T/numpy")
+n=$(val threads "$T/tool")
+printf 'sweep benchmark: %s points (gap 500 x reorganization 200 x huang_rhys 20 x temperature 5,\n' \
+    "$(val full_points "$T/tool")"
+printf '  one 1600 cm-1 mode, thermal), %s cores, %s\n' "$(nproc)" \
+    "$(sed -n 's/^model name[[:space:]]*: //p' /proc/cpuinfo | head -n 1)"
+printf '  %-40s %12.4g points/s\n' "tool, 1 thread" "$r1"
+printf '  %-40s %12.4g points/s\n' "tool, $n threads" "$rn"
+printf '  %-40s %12.3f  (speedup %.3f on %s threads)\n' "parallel efficiency" \
+    "$(val efficiency "$T/tool")" "$(val speedup "$T/tool")" "$n"
+printf '  %-40s %12.4g points/s  (speedup %.3f)\n' "tool, $n threads, chunks of 4096 points" \
+    "$(val pts_per_s_n_chunk "$T/tool")" "$(val speedup_chunk "$T/tool")"
+printf '  %-40s %12.4g points/s  (%s points timed)\n' "NumPy script, 1 process" "$np" \
+    "$(val numpy_points "$T/numpy")"
+printf '  %-40s %12.1f x  (1 thread: %.1f x)\n' "ratio tool / NumPy, $n threads" \
+    "$(calc "$rn / $np")" "$(calc "$r1 / $np")"
+printf '  %-40s %12.4g calls/s  (%.2f ns each)\n' "exp() ceiling, 1 thread" \
+    "$(val exp_per_s "$T/tool")" "$(calc "1e9 / $(val exp_per_s "$T/tool")")"
+printf '  %-40s %12.3f\n' "exp() loop speedup on $n threads" "$(val exp_speedup_n "$T/tool")"
+printf '  %-40s %12.1f  (kernel alone: %.1f)\n' "cost of a point, in exp() calls" \
+    "$(val sweep_exp_per_point "$T/tool")" "$(val kernel_exp_per_point "$T/tool")"
+printf '  %-40s %9s KiB for %s points, %s KiB for %s\n' "peak RSS, $n threads" \
+    "$(val rss_peak_kib "$T/rss-small")" "$(val rss_points "$T/rss-small")" \
+    "$(val rss_peak_kib "$T/rss-full")" "$(val rss_points "$T/rss-full")"
+printf '  %-40s %12s  (%s points, 1 vs %s threads)\n' "output identical at any thread count" \
+    "$(val identical "$T/tool")" "$(val identical_points "$T/tool")" "$n"
+sed -n 's/^agreement: /  NumPy vs tool: /p' "$T/numpy"
+
+# --------------------------------------------------------------- render ---
 t0=$(now)
-"$VG" sweep tests/bench/render.ini --out "$T" --quiet --set output.figures=none
+"$VG" sweep tests/bench/render.ini --out "$T/render" --quiet --set output.figures=none
 t1=$(now)
 for fmt in png pdf svg; do
     s=$(now)
-    "$VG" render "$T/sweep.nc" --out "$T" --quiet --set "output.figures=$fmt"
+    "$VG" render "$T/render/sweep.nc" --out "$T/render" --quiet --set "output.figures=$fmt"
     e=$(now)
     eval "t_$fmt=$(secs "$s" "$e")"
 done
@@ -32,5 +77,5 @@ for fmt in png pdf svg; do
     eval "t=\$t_$fmt"
     printf '  %-28s %8.2f s  %10.3g cells/s  %5.2f x the sweep time  (%s)\n' "render $fmt" "$t" \
         "$(calc "$cells / $t")" "$(calc "$t / $sweep")" \
-        "$(du -h "$T/map-log10_ratio.$fmt" | cut -f1)"
+        "$(du -h "$T/render/map-log10_ratio.$fmt" | cut -f1)"
 done

@@ -1,0 +1,347 @@
+/*
+ * Benchmark of the sweep engine and the rate kernel (run by make bench
+ * through tests/bench/bench.sh; it asserts nothing and is no part of make
+ * check).
+ *
+ * In one process it measures:
+ *   - the machine ceiling: exp() calls per second on this CPU, over varied
+ *     arguments whose results are all consumed, on one thread and on every
+ *     core at once (what the machine itself gives from more threads);
+ *   - the sweep of a 4-D single-mode thermal grid (gap x reorganization x
+ *     huang_rhys x temperature, 10^7 points, invented but plausible receptor
+ *     ranges) through vg_sweep_run with a sink that discards the metrics, at
+ *     1 thread and at every core, as points per second, and the cost of one
+ *     point as a multiple of one exp(); also at every core with chunks of
+ *     DIAG_CHUNK points, to show what the split of a chunk between threads
+ *     costs;
+ *   - the kernel alone (vg_rate_eval on the same points, one thread, no
+ *     grid indexing, no metrics), in the same units;
+ *   - that 1 thread and every core give identical output (an order-sensitive
+ *     checksum over the bits of every metric of a 10^6-point grid).
+ * With --rss it instead sweeps one grid once at every core and reports the
+ * process's peak resident memory; bench.sh runs it on a 10^6- and a
+ * 10^7-point grid, each in a fresh process: the engine keeps one chunk of
+ * metrics at a time, so the peak must not grow with the grid.
+ * Each timing is the best of REPEAT runs, 1 thread and all cores taken in
+ * turn, so that a burst of other load on the machine spoils neither alone.
+ *
+ * Output: one "key value" pair a line, read by bench.sh.
+ * Usage: bench_sweep [--rss] [HUANG_RHYS_VALUES]   (default 20: 10^7 points;
+ *        the identity grid has a tenth of them, at least 2)
+ */
+#define _POSIX_C_SOURCE 200809L
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/resource.h>
+#include <time.h>
+
+#include <gsl/gsl_errno.h>
+
+#include "vg_config.h"
+#include "vg_grid.h"
+#include "vg_metrics.h"
+#include "vg_rate.h"
+#include "vg_sweep.h"
+
+/* The grid, invented for the benchmark: a 1600 cm-1 mode (C=O stretch
+ * region, common practice) and receptor-like ranges of gap, reorganization
+ * and coupling (docs/theory.md, typical ranges); %zu is the number of
+ * huang_rhys values (20: 500 x 200 x 20 x 5 = 10^7 points). */
+static const char grid_format[] =
+    "[parameters]\n"
+    "gap = -200 .. 800 meV, 500 points\n"
+    "reorganization = 10 .. 500 meV, 200 points, log\n"
+    "electronic_coupling = 1 meV\n"
+    "huang_rhys = 0.01 .. 1, %zu points, log\n"
+    "mode = 1600 cm-1\n"
+    "temperature = 250 .. 350 K, 5 points\n"
+    "[output]\n"
+    "data = netcdf\n"
+    "max_size = 1 TB\n";
+
+#define REPEAT 3
+/* Chunk of the scheduling diagnostic (the engine's default is 65536). */
+#define DIAG_CHUNK ((size_t)4096)
+/* exp() ceiling: EXP_ARGS arguments spread over [-40, 0], the range the
+ * kernel's terms take relative to the largest one, EXP_PASSES times. */
+#define EXP_ARGS 4096
+#define EXP_PASSES 20000
+/* Weight-table size for the kernel-only loop (channels -TAB/2 .. TAB/2). */
+#define KERNEL_TAB 512
+
+typedef struct {
+    uint64_t hash; /* order-sensitive: FNV-1a over the metric bits */
+    size_t points;
+} checksum;
+
+static double now_seconds(void)
+{
+    struct timespec ts;
+
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+static long peak_rss_kib(void)
+{
+    struct rusage ru;
+
+    return getrusage(RUSAGE_SELF, &ru) == 0 ? ru.ru_maxrss : -1;
+}
+
+static vg_status sink_discard(void *ctx, size_t start, size_t count,
+                              const double *metrics, vg_error *err)
+{
+    (void)ctx;
+    (void)start;
+    (void)count;
+    (void)metrics;
+    (void)err;
+    return VG_OK;
+}
+
+static vg_status sink_checksum(void *ctx, size_t start, size_t count,
+                               const double *metrics, vg_error *err)
+{
+    checksum *c = ctx;
+    size_t n = count * VG_N_METRICS;
+
+    (void)start;
+    (void)err;
+    for (size_t i = 0; i < n; i++) {
+        uint64_t bits;
+        memcpy(&bits, &metrics[i], sizeof bits);
+        c->hash = (c->hash ^ bits) * 0x100000001b3ULL; /* FNV-1a 64-bit prime (common practice) */
+    }
+    c->points += count;
+    return VG_OK;
+}
+
+/* EXP_ARGS * EXP_PASSES calls of exp() over varied arguments (a fixed
+ * permutation of [-40, 0], shifted a little on each pass); returns the sum
+ * of the results, which main prints, so that no call can be dropped. */
+static double exp_loop(void)
+{
+    double arg[EXP_ARGS], acc = 0.0;
+
+    for (size_t i = 0; i < EXP_ARGS; i++)
+        arg[i] = -40.0 * (double)((i * 2654435761u) % EXP_ARGS) / (double)EXP_ARGS;
+    for (size_t k = 0; k < EXP_PASSES; k++) {
+        double shift = 1e-6 * (double)k;
+        for (size_t i = 0; i < EXP_ARGS; i++)
+            acc += exp(arg[i] - shift);
+    }
+    return acc;
+}
+
+/* exp() calls per second, all nthreads threads running exp_loop at once
+ * (nthreads = 1: the ceiling of one core). */
+static double exp_rate(int nthreads, double *consumed)
+{
+    double acc = 0.0, t0 = now_seconds();
+
+#ifdef _OPENMP
+#pragma omp parallel num_threads(nthreads) reduction(+ : acc)
+#endif
+    acc += exp_loop();
+    *consumed += acc;
+    return (double)nthreads * EXP_ARGS * EXP_PASSES / (now_seconds() - t0);
+}
+
+static int load_grid(vg_config *cfg, vg_grid *g, size_t n_s)
+{
+    char text[sizeof grid_format + 32];
+    vg_error err = {VG_OK, ""};
+
+    snprintf(text, sizeof text, grid_format, n_s);
+    if (vg_config_load_text(cfg, "bench_sweep", text, 0, NULL, &err) != VG_OK) {
+        fprintf(stderr, "bench_sweep: %s\n", err.msg);
+        return -1;
+    }
+    vg_grid_init(g, cfg);
+    return 0;
+}
+
+/* Seconds of one sweep of g (chunk 0: the engine's default), or -1 on
+ * failure. */
+static double timed_sweep(const vg_grid *g, int threads, size_t chunk, vg_sweep_sink sink,
+                          void *ctx)
+{
+    vg_sweep_opts o = {0};
+    vg_error err = {VG_OK, ""};
+    double t0 = now_seconds();
+
+    o.threads = threads;
+    o.chunk = chunk;
+    if (vg_sweep_run(g, &o, sink, ctx, &err) != VG_OK) {
+        fprintf(stderr, "bench_sweep: %s\n", err.msg);
+        return -1.0;
+    }
+    return now_seconds() - t0;
+}
+
+/* 1 thread and nthreads give the same bits; prints the checksum lines. */
+static int check_identical(const vg_grid *g, int nthreads)
+{
+    /* FNV-1a 64-bit offset basis (common practice) */
+    checksum c[2] = {{0xcbf29ce484222325ULL, 0}, {0xcbf29ce484222325ULL, 0}};
+
+    if (timed_sweep(g, 1, 0, sink_checksum, &c[0]) < 0.0
+        || timed_sweep(g, nthreads, 0, sink_checksum, &c[1]) < 0.0)
+        return -1;
+    printf("identical_points %zu\n", c[0].points);
+    printf("identical %s\n", c[0].hash == c[1].hash && c[0].points == c[1].points ? "yes" : "no");
+    return 0;
+}
+
+/* Points per second of the whole grid, best of REPEAT: [0] at 1 thread,
+ * [1] at nthreads, [2] at nthreads with chunks of DIAG_CHUNK points. */
+static int sweep_rates(const vg_grid *g, int nthreads, double rate[3])
+{
+    const int threads[3] = {1, nthreads, nthreads};
+    const size_t chunk[3] = {0, 0, DIAG_CHUNK};
+
+    rate[0] = rate[1] = rate[2] = 0.0;
+    for (int r = 0; r < REPEAT; r++)
+        for (int k = 0; k < 3; k++) {
+            double dt = timed_sweep(g, threads[k], chunk[k], sink_discard, NULL);
+            if (dt < 0.0)
+                return -1;
+            rate[k] = fmax(rate[k], (double)g->npoints / dt);
+        }
+    return 0;
+}
+
+/* Kernel alone: vg_rate_eval over every (gap, reorganization) of the grid
+ * for each (huang_rhys, temperature), one thread, a weight table attached
+ * as the sweep engine does.  Points per second, best of REPEAT; the results
+ * go into *consumed. */
+static double kernel_rate(const vg_config *cfg, double *consumed)
+{
+    static double tab[KERNEL_TAB];
+    static unsigned char set[KERNEL_TAB];
+    const vg_param *p = cfg->param;
+    size_t n = p[VG_P_GAP].n * p[VG_P_REORG].n * p[VG_P_HUANG_RHYS].n * p[VG_P_TEMPERATURE].n;
+    double best = 0.0;
+
+    for (int r = 0; r < REPEAT; r++) {
+        double t0 = now_seconds();
+        for (size_t it = 0; it < p[VG_P_TEMPERATURE].n; it++)
+            for (size_t is = 0; is < p[VG_P_HUANG_RHYS].n; is++) {
+                vg_rate_mode m;
+                vg_error err = {VG_OK, ""};
+                if (vg_rate_mode_init(&m, cfg->stats, p[VG_P_HUANG_RHYS].v[is], p[VG_P_MODE].v[0],
+                                      p[VG_P_TEMPERATURE].v[it], &err) != VG_OK)
+                    return -1.0;
+                vg_rate_mode_attach_table(&m, -KERNEL_TAB / 2, KERNEL_TAB, tab, set);
+                for (size_t il = 0; il < p[VG_P_REORG].n; il++)
+                    for (size_t ig = 0; ig < p[VG_P_GAP].n; ig++) {
+                        vg_rates out;
+                        if (vg_rate_eval(&m, p[VG_P_GAP].v[ig], p[VG_P_REORG].v[il],
+                                         p[VG_P_COUPLING].v[0], cfg->tolerance, &out,
+                                         &err) != VG_OK)
+                            return -1.0;
+                        *consumed += out.ln_k_total;
+                    }
+            }
+        best = fmax(best, (double)n / (now_seconds() - t0));
+    }
+    return best;
+}
+
+/* The 10^6-point grid: identity across thread counts, kernel alone, RSS. */
+static int small_grid(size_t n_s, int nthreads, double exp_per_s, double *consumed)
+{
+    vg_config cfg;
+    vg_grid g;
+    double k;
+    int st;
+
+    if (load_grid(&cfg, &g, n_s) != 0)
+        return -1;
+    st = check_identical(&g, nthreads);
+    k = st == 0 ? kernel_rate(&cfg, consumed) : -1.0;
+    vg_config_free(&cfg);
+    if (k < 0.0)
+        return -1;
+    printf("kernel_points %zu\n", g.npoints);
+    printf("kernel_pts_per_s %.6g\n", k);
+    printf("kernel_exp_per_point %.3f\n", exp_per_s / k);
+    return 0;
+}
+
+/* The 10^7-point grid: throughput at 1 thread and every core, RSS. */
+static int full_grid(size_t n_s, int nthreads, double exp_per_s)
+{
+    vg_config cfg;
+    vg_grid g;
+    double rate[3];
+    int st;
+
+    if (load_grid(&cfg, &g, n_s) != 0)
+        return -1;
+    st = sweep_rates(&g, nthreads, rate);
+    vg_config_free(&cfg);
+    if (st != 0)
+        return -1;
+    printf("full_points %zu\n", g.npoints);
+    printf("pts_per_s_1 %.6g\n", rate[0]);
+    printf("pts_per_s_n %.6g\n", rate[1]);
+    printf("speedup %.4f\n", rate[1] / rate[0]);
+    printf("efficiency %.4f\n", rate[1] / rate[0] / nthreads);
+    printf("pts_per_s_n_chunk %.6g\n", rate[2]);
+    printf("speedup_chunk %.4f\n", rate[2] / rate[0]);
+    printf("sweep_exp_per_point %.3f\n", exp_per_s / rate[0]);
+    return 0;
+}
+
+/* --rss: one sweep at every core, then the peak resident set of this
+ * process. */
+static int rss_grid(size_t n_s, int nthreads)
+{
+    vg_config cfg;
+    vg_grid g;
+    double dt;
+
+    if (load_grid(&cfg, &g, n_s) != 0)
+        return -1;
+    dt = timed_sweep(&g, nthreads, 0, sink_discard, NULL);
+    vg_config_free(&cfg);
+    if (dt < 0.0)
+        return -1;
+    printf("rss_points %zu\n", g.npoints);
+    printf("rss_peak_kib %ld\n", peak_rss_kib());
+    return 0;
+}
+
+int main(int argc, char **argv)
+{
+    int rss = argc > 1 && strcmp(argv[1], "--rss") == 0;
+    size_t n_s = argc > 1 + rss ? (size_t)strtoul(argv[1 + rss], NULL, 10) : 20;
+    vg_sweep_opts all = {0};
+    int nthreads = vg_sweep_threads(&all);
+    double consumed = 0.0, exp_per_s = 0.0, exp_per_s_n = 0.0;
+
+    gsl_set_error_handler_off();
+    if (n_s < 2) {
+        fprintf(stderr, "bench_sweep: HUANG_RHYS_VALUES must be at least 2\n");
+        return 2;
+    }
+    if (rss)
+        return rss_grid(n_s, nthreads) == 0 ? 0 : 1;
+    for (int r = 0; r < REPEAT; r++) {
+        exp_per_s = fmax(exp_per_s, exp_rate(1, &consumed));
+        exp_per_s_n = fmax(exp_per_s_n, exp_rate(nthreads, &consumed));
+    }
+    printf("threads %d\n", nthreads);
+    printf("exp_per_s %.6g\n", exp_per_s);
+    printf("exp_speedup_n %.4f\n", exp_per_s_n / exp_per_s);
+    if (small_grid(n_s / 10 > 2 ? n_s / 10 : 2, nthreads, exp_per_s, &consumed) != 0
+        || full_grid(n_s, nthreads, exp_per_s) != 0)
+        return 1;
+    printf("consumed %.17g\n", consumed);
+    return 0;
+}
