@@ -47,11 +47,7 @@ vg_status vg_cmd_figures(const char *nc_path, const char *dir, size_t nset,
         vg_dataset_close(&ds);
     if (st != VG_OK)
         return st;
-    vg_draw_timestamp(stamp, sizeof stamp, &meta.epoch);
-    snprintf(software, sizeof software, "vibrogate %s", VG_VERSION);
-    meta.software = software;
-    meta.creation_time = stamp;
-    meta.quiet = quiet;
+    vg_draw_meta(&meta, stamp, software, quiet);
     if (ds.cfg.fig.formats)
         st = vg_figure_maps(&ds, dir, &meta, err);
     vg_dataset_close(&ds);

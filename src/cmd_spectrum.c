@@ -339,11 +339,7 @@ static vg_status draw_all(const spectrum *s, const char *dir, int quiet, vg_erro
     char stamp[32], software[64], path[4200];
     vg_figure_meta meta;
 
-    vg_draw_timestamp(stamp, sizeof stamp, &meta.epoch);
-    snprintf(software, sizeof software, "vibrogate %s", VG_VERSION);
-    meta.software = software;
-    meta.creation_time = stamp;
-    meta.quiet = quiet;
+    vg_draw_meta(&meta, stamp, software, quiet);
     if (mkdir(dir, 0777) != 0 && access(dir, W_OK) != 0)
         return vg_error_set(err, VG_EIO, "cannot use output directory '%s'", dir);
     for (size_t k = 0; k < 3; k++) {

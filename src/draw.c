@@ -39,6 +39,15 @@ void vg_draw_timestamp(char *buf, size_t len, long long *epoch)
     *epoch = (long long)t;
 }
 
+void vg_draw_meta(vg_figure_meta *m, char stamp[32], char software[64], int quiet)
+{
+    vg_draw_timestamp(stamp, 32, &m->epoch);
+    snprintf(software, 64, "vibrogate %s", VG_VERSION);
+    m->software = software;
+    m->creation_time = stamp;
+    m->quiet = quiet;
+}
+
 static cairo_status_t stream_write(void *closure, const unsigned char *data, unsigned int len)
 {
     vg_canvas *c = closure;

@@ -56,6 +56,10 @@ void vg_draw_text_halo(cairo_t *cr, const char *font, double size_pt, const char
 void vg_draw_text_size(cairo_t *cr, const char *font, double size_pt, const char *markup,
                        double *w, double *h);
 
+/* Fill m for figures written now: time stamp (into stamp, 32 bytes),
+ * "vibrogate VERSION" (into software, 64 bytes), quiet flag. */
+void vg_draw_meta(vg_figure_meta *m, char stamp[32], char software[64], int quiet);
+
 /* "2026-12-01T20:00:00Z"-style stamp and its epoch, from SOURCE_DATE_EPOCH
  * when set, else the clock. */
 void vg_draw_timestamp(char *buf, size_t len, long long *epoch);

@@ -64,7 +64,10 @@ static double assisted_fraction(double ln_assisted, double ln_elastic)
 
     if (d >= 0.0)
         return 1.0 / (1.0 + exp(-d));
-    return exp(d) / (1.0 + exp(d));
+    {
+        double e = exp(d); /* once: this runs for every grid point */
+        return e / (1.0 + e);
+    }
 }
 
 void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS])

@@ -264,27 +264,6 @@ static void path_in(char *buf, const char *dir, const char *name)
     assert_true(n > 0 && n < PATH_LEN);
 }
 
-static char *read_all(const char *path, size_t *len)
-{
-    FILE *fp = fopen(path, "rb");
-    char *buf;
-    long n;
-
-    assert_non_null(fp);
-    assert_int_equal(fseek(fp, 0, SEEK_END), 0);
-    n = ftell(fp);
-    assert_true(n >= 0);
-    rewind(fp);
-    buf = malloc((size_t)n + 1);
-    assert_non_null(buf);
-    assert_int_equal(fread(buf, 1, (size_t)n, fp), (size_t)n);
-    buf[n] = '\0';
-    fclose(fp);
-    if (len)
-        *len = (size_t)n;
-    return buf;
-}
-
 static void write_text(const char *path, const char *text)
 {
     FILE *fp = fopen(path, "w");
@@ -401,7 +380,7 @@ static void check_csv_row(const vg_config *cfg, size_t flat, char **field, size_
 /* Header, then exactly one row per point in flat order, nothing else. */
 static void check_csv(const vg_config *cfg, const char *path)
 {
-    char *text = read_all(path, NULL), *line = text, header[1024];
+    char *text = test_read_file(path, NULL), *line = text, header[1024];
     char *field[VG_NPARAM + VG_N_METRICS + 2];
     size_t total = npoints_of(cfg), flat = 0;
 
@@ -550,12 +529,12 @@ static void csv_same_bytes_for_any_chunks(void **state)
 
     assert_int_equal(write_file(f, VG_FMT_CSV, f->dir, awkward, 4, &err), VG_OK);
     path_in(path, f->dir, "sweep.csv");
-    ref = read_all(path, &len);
+    ref = test_read_file(path, &len);
     for (s = 0; s < 3; s++) {
         new_dir(dir);
         assert_int_equal(write_file(f, VG_FMT_CSV, dir, sched[s], nsched[s], &err), VG_OK);
         path_in(path, dir, "sweep.csv");
-        other = read_all(path, &olen);
+        other = test_read_file(path, &olen);
         assert_int_equal(olen, len);
         assert_memory_equal(other, ref, len);
         free(other);
@@ -782,7 +761,7 @@ static void temp_gone_after_abort(void **state)
     vg_out_abort(NULL);
     test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "sweep.csv");
-    text = read_all(path, NULL);
+    text = test_read_file(path, NULL);
     assert_string_equal(text, "earlier results\n");
     free(text);
 }
@@ -891,7 +870,7 @@ static void error_write_keeps_earlier_csv(void **state)
     assert_string_equal(err.msg, want);
     test_list_dir(f->dir, "/", names, sizeof names);
     assert_string_equal(names, "sweep.csv");
-    text = read_all(path, NULL);
+    text = test_read_file(path, NULL);
     assert_string_equal(text, "earlier results\n");
     free(text);
 }

@@ -141,26 +141,6 @@ static void path_in(char *path, const char *dir, const char *name)
     snprintf(path, PATH_LEN, "%s/%s", dir, name);
 }
 
-static unsigned char *read_bytes(const char *path, size_t *len)
-{
-    FILE *fp = fopen(path, "rb");
-    unsigned char *buf;
-    long n;
-
-    assert_non_null(fp);
-    assert_int_equal(fseek(fp, 0, SEEK_END), 0);
-    n = ftell(fp);
-    assert_true(n >= 0);
-    rewind(fp);
-    buf = malloc((size_t)n + 1);
-    assert_non_null(buf);
-    assert_int_equal(fread(buf, 1, (size_t)n, fp), (size_t)n);
-    fclose(fp);
-    buf[n] = '\0';
-    *len = (size_t)n;
-    return buf;
-}
-
 static void write_text_file(const char *path, const char *text)
 {
     FILE *fp = fopen(path, "w");
@@ -173,7 +153,7 @@ static void write_text_file(const char *path, const char *text)
 static void assert_file_is(const char *path, const char *text)
 {
     size_t len;
-    unsigned char *buf = read_bytes(path, &len);
+    unsigned char *buf = (unsigned char *)test_read_file(path, &len);
 
     assert_int_equal(len, strlen(text));
     assert_memory_equal(buf, text, len);
@@ -639,7 +619,7 @@ static void chunks_by_hand(void **state)
 
     (void)state;
     write_new(dir, path, "raw.png", &im, &meta);
-    buf = read_bytes(path, &len);
+    buf = (unsigned char *)test_read_file(path, &len);
     n = parse_chunks(buf, len, c);
     check_order(c, n);
     /* IHDR (11.2.2): width, height, depth 8, colour type 2, 0, 0, 0 */

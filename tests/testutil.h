@@ -46,4 +46,27 @@ static inline int test_remove_tree(const char *root)
     return nftw(root, test_remove_entry, 16, FTW_DEPTH | FTW_PHYS);
 }
 
+/* The whole file, NUL-terminated (the NUL not counted in *len, which may be
+ * NULL); the caller frees it. */
+static inline char *test_read_file(const char *path, size_t *len)
+{
+    FILE *fp = fopen(path, "rb");
+    char *buf;
+    long n;
+
+    assert_non_null(fp);
+    assert_int_equal(fseek(fp, 0, SEEK_END), 0);
+    n = ftell(fp);
+    assert_true(n >= 0);
+    rewind(fp);
+    buf = malloc((size_t)n + 1);
+    assert_non_null(buf);
+    assert_int_equal(fread(buf, 1, (size_t)n, fp), (size_t)n);
+    buf[n] = '\0';
+    fclose(fp);
+    if (len)
+        *len = (size_t)n;
+    return buf;
+}
+
 #endif
