@@ -11,6 +11,7 @@
 
 #define VG_PI 3.14159265358979323846264338327950288
 #define VG_LN10 2.30258509299404568401799145468436421
+#define VG_LOG10E 0.434294481903251827651128918916605082 /* 1 / ln 10 */
 
 /* Exact defining constants of the SI (2019). */
 #define VG_SI_H 6.62607015e-34          /* Planck constant, J s */

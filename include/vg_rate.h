@@ -33,6 +33,7 @@ typedef struct {
     vg_mode_statistics stats;
     double S;           /* Huang-Rhys factor, >= 0 */
     double mode;        /* hbar*omega, meV, > 0 */
+    double inv_mode;    /* 1 / mode */
     double kT;          /* k_B T, meV, > 0 */
     double beta;        /* hbar*omega / k_B T */
     double ln_s;        /* ln S (-inf never used when S == 0) */
@@ -60,11 +61,37 @@ typedef struct {
     double ln_fc_assisted;  /* so that ratios stay defined when V == 0 */
     double ln_fc_total;
     double ln_fc_bare;
+    double assisted_fraction; /* k_assisted / k_total, in [0, 1] (0 when S == 0) */
     int assisted_zero;      /* 1: no assisted channel (S == 0) */
     int coupling_zero;      /* 1: V == 0, every rate is exactly zero */
     long n_lo, n_hi;        /* channels summed: n in [n_lo, n_hi] */
     long n_peak;            /* the largest channel */
 } vg_rates;
+
+/* Everything a run of points sharing one mode record, one reorganization
+ * and one coupling has in common (a row of the gap axis on a sweep), with an
+ * optional caller-owned cache of the channel step ratios
+ * q_n = exp(ln W_{n+1} - ln W_n - (2n+1) (hbar omega)^2 / (4 lam kT)), so that
+ * a point of the row costs one exp for its gap and a multiplication per
+ * channel.  Filling the cache never changes a result: a point gives the same
+ * bits through vg_rate_eval_row with or without it, and through vg_rate_eval.
+ * docs/theory.md, "Channel window", and docs/performance.md. */
+typedef struct {
+    double reorg;       /* lambda, meV */
+    double coupling;    /* V, meV */
+    double inv4lkt;     /* 1 / (4 lambda k_B T), meV^-2 */
+    double ln_p;        /* ln of the golden-rule prefactor in s^-1 (0 when V == 0) */
+    double two_c_mode;  /* 2 hbar omega / (4 lambda k_B T), meV^-1 */
+    double c_mode2;     /* (hbar omega)^2 / (4 lambda k_B T) */
+    /* Cache for channels n in [q_lo, q_lo + q_len): entry i is valid when
+     * q_gen[i] == gen.  q_len == 0: none. */
+    unsigned gen;
+    long q_lo;
+    size_t q_len;
+    double *q;          /* q_n, or -1 where the step is outside the linear range */
+    double *qi;         /* 1 / q_n */
+    unsigned *q_gen;
+} vg_rate_row;
 
 /* Fill m for (S, hbar*omega, T).  Returns VG_ENUMERIC with a message if the
  * inputs are outside the accepted domain (S < 0, mode <= 0, T <= 0, or not
@@ -96,6 +123,23 @@ double vg_rate_ln_bessel_i(long n, double x, double ln_x);
 vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,
                        double coupling_meV, double tol, vg_rates *out,
                        vg_error *err);
+
+/* Attach a caller-owned cache of len entries (q, qi and gen each hold len
+ * elements) for channels lo .. lo+len-1 and mark it empty.  Once per row
+ * record; vg_rate_row_begin keeps it across rows. */
+void vg_rate_row_attach(vg_rate_row *row, long lo, size_t len, double *q, double *qi,
+                        unsigned *gen);
+
+/* Start a row for (m, reorganization, coupling): checks them as vg_rate_eval
+ * does and forgets the cache's entries.  A row without a cache needs
+ * row->q_len == 0 (a zeroed record will do). */
+vg_status vg_rate_row_begin(vg_rate_row *row, const vg_rate_mode *m, double reorg_meV,
+                            double coupling_meV, vg_error *err);
+
+/* Rates at one gap of the row: the same bits as vg_rate_eval(m, gap,
+ * row's reorganization, row's coupling, ...). */
+vg_status vg_rate_eval_row(vg_rate_mode *m, vg_rate_row *row, double gap_meV, double tol,
+                           vg_rates *out, vg_error *err);
 
 /* Batch form: count points sharing one mode. */
 vg_status vg_rate_eval_batch(vg_rate_mode *m, size_t count, const double *gap_meV,

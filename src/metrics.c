@@ -53,21 +53,7 @@ int vg_metric_find(const char *name)
 /* log10 of a rate, or VG_FILL where the rate is exactly zero. */
 static double log10_or_fill(double ln_value, int zero)
 {
-    return zero ? VG_FILL : ln_value / VG_LN10;
-}
-
-/* k_assisted / k_total = 1 / (1 + k_elastic / k_assisted), from the log
- * difference so that it neither overflows nor loses the small end. */
-static double assisted_fraction(double ln_assisted, double ln_elastic)
-{
-    double d = ln_assisted - ln_elastic;
-
-    if (d >= 0.0)
-        return 1.0 / (1.0 + exp(-d));
-    {
-        double e = exp(d); /* once: this runs for every grid point */
-        return e / (1.0 + e);
-    }
+    return zero ? VG_FILL : ln_value * VG_LOG10E;
 }
 
 void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS])
@@ -80,7 +66,6 @@ void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS])
     out[VG_M_LOG10_K_TOTAL] = log10_or_fill(r->ln_k_total, vz);
     out[VG_M_LOG10_K_BARE] = log10_or_fill(r->ln_k_bare, vz);
     out[VG_M_LOG10_RATIO] = log10_or_fill(r->ln_fc_assisted - r->ln_fc_elastic, sz);
-    out[VG_M_ASSISTED_FRACTION] = sz ? 0.0
-                                     : assisted_fraction(r->ln_fc_assisted, r->ln_fc_elastic);
-    out[VG_M_LOG10_CONTRAST] = (r->ln_fc_total - r->ln_fc_bare) / VG_LN10;
+    out[VG_M_ASSISTED_FRACTION] = sz ? 0.0 : r->assisted_fraction;
+    out[VG_M_LOG10_CONTRAST] = (r->ln_fc_total - r->ln_fc_bare) * VG_LOG10E;
 }

@@ -273,6 +273,7 @@ vg_status vg_rate_mode_init(vg_rate_mode *m, vg_mode_statistics stats,
     m->mode = mode_meV;
     m->kT = VG_KB_MEV * temperature_K;
     m->beta = mode_meV / m->kT;
+    m->inv_mode = 1.0 / mode_meV;
     h = 0.5 * m->beta;
     m->ln_s = log(huang_rhys); /* -inf for S == 0, never used then */
     /* ln sinh h = h - ln 2 + ln(1 - e^-2h): finite for h up to DBL_MAX */
@@ -551,15 +552,12 @@ static vg_status assisted_sum(chan_seq *s, double tol, vg_rates *out, vg_error *
     return VG_OK;
 }
 
-/* The checks of vg_rate_eval, one message per way to fail. */
-static vg_status point_check(const vg_rate_mode *m, double gap, double reorg,
-                             double coupling, double tol, const vg_rates *out,
-                             vg_error *err)
+/* The checks of vg_rate_row_begin, one message per way to fail. */
+static vg_status row_check(const vg_rate_row *row, const vg_rate_mode *m, double reorg,
+                           double coupling, vg_error *err)
 {
-    if (!m || !out)
-        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode or result record");
-    if (!isfinite(gap))
-        return vg_error_set(err, VG_ENUMERIC, "'gap' must be a finite energy in meV (got %g)", gap);
+    if (!m || !row)
+        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode or row record");
     if (!isfinite(reorg) || reorg <= 0.0)
         return vg_error_set(err, VG_ENUMERIC,
                             "'reorganization' must be finite and > 0 meV (got %g meV)", reorg);
@@ -567,13 +565,24 @@ static vg_status point_check(const vg_rate_mode *m, double gap, double reorg,
         return vg_error_set(err, VG_ENUMERIC,
                             "'electronic_coupling' must be finite and >= 0 meV (got %g meV)",
                             coupling);
-    if (!isfinite(tol) || tol <= 0.0 || tol >= 1.0)
-        return vg_error_set(err, VG_ENUMERIC,
-                            "'tolerance' must lie strictly between 0 and 1 (got %g)", tol);
     if (!(reorg * m->kT > 0.0) || !isnormal(4.0 * reorg * m->kT))
         return vg_error_set(err, VG_ENUMERIC,
                             "4 'reorganization' k_B T is not a normal number "
                             "(reorganization %g meV, k_B T %g meV)", reorg, m->kT);
+    return VG_OK;
+}
+
+/* The checks of vg_rate_eval_row. */
+static vg_status point_check(const vg_rate_mode *m, const vg_rate_row *row, double gap,
+                             double tol, const vg_rates *out, vg_error *err)
+{
+    if (!m || !row || !out)
+        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode or result record");
+    if (!isfinite(gap))
+        return vg_error_set(err, VG_ENUMERIC, "'gap' must be a finite energy in meV (got %g)", gap);
+    if (!isfinite(tol) || tol <= 0.0 || tol >= 1.0)
+        return vg_error_set(err, VG_ENUMERIC,
+                            "'tolerance' must lie strictly between 0 and 1 (got %g)", tol);
     return VG_OK;
 }
 
@@ -613,38 +622,302 @@ static int rates_valid(const vg_rates *r)
     return rates_valid_each(r);
 }
 
-vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,
-                       double coupling_meV, double tol, vg_rates *out,
-                       vg_error *err)
+/* ---- The linear path ----------------------------------------------------
+ * Along the channels, t_{n+1} / t_n = exp(a_{n+1} - a_n) = q_n A with
+ *   q_n = exp(ln W_{n+1} - ln W_n - (2n+1) c hbar omega^2),  c = 1 / (4 lam kT),
+ *   A   = exp(2 c hbar omega (gap - lam)),
+ * (expand the square in a_n).  q_n depends on the row only, A on the gap
+ * only, so with the q_n cached a point costs one exp (A), a multiplication
+ * per channel and the logs of its two sums.  Every term is formed as a
+ * product of ratios walking outward from the peak, so each is at most 1 and
+ * their relative error grows by about two ulps a step.  The path declines a
+ * point (the log path above takes it) when a factor leaves
+ * [e^-LIN_LIMIT, e^LIN_LIMIT] (so that no product can overflow), when the
+ * peak is more than PEAK_WALK steps from the Gaussian centre, or when the
+ * assisted sum relative to an elastic peak is too small to keep its digits. */
+#define LIN_LIMIT 300.0
+#define LIN_SUM_MIN 0x1p-900
+
+static vg_status row_init(vg_rate_row *row, const vg_rate_mode *m, double reorg,
+                          double coupling, vg_error *err)
 {
-    vg_status st = point_check(m, gap_meV, reorg_meV, coupling_meV, tol, out, err);
-    chan_seq s;
-    double ln_p;
+    vg_status st = row_check(row, m, reorg, coupling, err);
 
     if (st != VG_OK)
         return st;
-    /* first, so that its sqrt, division and log overlap the channel sums */
-    ln_p = coupling_meV == 0.0 ? 0.0 : ln_prefactor(coupling_meV, reorg_meV, m->kT);
-    s.m = m;
-    s.d = gap_meV - reorg_meV;
-    s.inv4lkt = 1.0 / (4.0 * reorg_meV * m->kT);
-    s.nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
+    row->reorg = reorg;
+    row->coupling = coupling;
+    row->inv4lkt = 1.0 / (4.0 * reorg * m->kT);
+    row->ln_p = coupling == 0.0 ? 0.0 : ln_prefactor(coupling, reorg, m->kT);
+    row->two_c_mode = 2.0 * m->mode * row->inv4lkt;
+    row->c_mode2 = m->mode * m->mode * row->inv4lkt;
+    return VG_OK;
+}
+
+void vg_rate_row_attach(vg_rate_row *row, long lo, size_t len, double *q, double *qi,
+                        unsigned *gen)
+{
+    row->q_lo = lo;
+    row->q_len = len;
+    row->q = q;
+    row->qi = qi;
+    row->q_gen = gen;
+    row->gen = 0;
+    for (size_t i = 0; i < len; i++)
+        gen[i] = 0;
+}
+
+vg_status vg_rate_row_begin(vg_rate_row *row, const vg_rate_mode *m, double reorg_meV,
+                            double coupling_meV, vg_error *err)
+{
+    vg_status st = row_init(row, m, reorg_meV, coupling_meV, err);
+
+    if (st != VG_OK || row->q_len == 0)
+        return st;
+    if (++row->gen == 0) { /* wrapped: every stamp could be stale */
+        for (size_t i = 0; i < row->q_len; i++)
+            row->q_gen[i] = 0;
+        row->gen = 1;
+    }
+    return VG_OK;
+}
+
+/* q_n and 1/q_n into q[0], q[1] from the formula, stored in the cache when
+ * n lies in it; 0 if the step lies outside the linear range (or a weight is
+ * not finite). */
+static int q_fill(vg_rate_mode *m, vg_rate_row *row, long n, size_t i, double q[2])
+{
+    double lq = ln_w(m, n + 1) - ln_w(m, n) - row->c_mode2 * (double)(2 * n + 1);
+
+    if (fabs(lq) <= LIN_LIMIT) {
+        q[0] = exp(lq);
+        q[1] = exp(-lq);
+    } else {
+        q[0] = q[1] = -1.0;
+    }
+    if (i < row->q_len) {
+        row->q[i] = q[0];
+        row->qi[i] = q[1];
+        row->q_gen[i] = row->gen;
+    }
+    return q[0] >= 0.0;
+}
+
+/* The same through the cache: the same value whether cached or not. */
+static inline int q_get(vg_rate_mode *m, vg_rate_row *row, long n, double q[2])
+{
+    size_t i = (size_t)((unsigned long)n - (unsigned long)row->q_lo);
+
+    if (i < row->q_len && row->q_gen[i] == row->gen) {
+        q[0] = row->q[i];
+        q[1] = row->qi[i];
+        return q[0] >= 0.0;
+    }
+    return q_fill(m, row, n, i, q);
+}
+
+/* The peak p (the smallest n >= nmin with t_{n+1} <= t_n) by walking from
+ * channel g; 0 if it is farther than PEAK_WALK steps or a step is outside
+ * the linear range. */
+static int lin_peak(vg_rate_mode *m, vg_rate_row *row, long nmin, long g, double A,
+                    long *p)
+{
+    double q[2];
+    int k;
+
+    if (!q_get(m, row, g, q))
+        return 0;
+    if (q[0] * A > 1.0) {
+        for (k = 0; q[0] * A > 1.0; k++) {
+            if (k == PEAK_WALK || !q_get(m, row, ++g, q))
+                return 0;
+        }
+    } else {
+        for (k = 0; g > nmin; k++, g--) {
+            if (k == PEAK_WALK || !q_get(m, row, g - 1, q))
+                return 0;
+            if (q[0] * A > 1.0)
+                break;
+        }
+    }
+    *p = g;
+    return 1;
+}
+
+/* Sums of t_n = exp(a_n - a_p) outward from the peak p: the assisted ones
+ * into *sum, t_0 into *t0 if a side reached n = 0 (else left alone).  The
+ * stopping rule is sum_side's (log-concavity bounds each side's rest by
+ * t_n^2 / (t_{n-dir} - t_n)).  0 if a step is outside the linear range. */
+static int lin_sums(vg_rate_mode *m, vg_rate_row *row, long nmin, long p, double A,
+                    double Ai, double tol4, double *sum, double *t0, long *lo, long *hi)
+{
+    double q[2], t = 1.0, tp;
+    long n;
+
+    for (n = p;;) {
+        if (n >= CHANNEL_LIMIT || !q_get(m, row, n, q))
+            return 0;
+        tp = t;
+        t *= q[0] * A;
+        if (++n != 0)
+            *sum += t;
+        else
+            *t0 = t;
+        if (!(t * t > tol4 * *sum * (tp - t)))
+            break;
+    }
+    *hi = n;
+    for (n = p, t = 1.0; n > nmin;) {
+        if (!q_get(m, row, n - 1, q))
+            return 0;
+        tp = t;
+        t *= q[1] * Ai;
+        if (--n != 0)
+            *sum += t;
+        else
+            *t0 = t;
+        if (!(t * t > tol4 * *sum * (tp - t)))
+            break;
+    }
+    *lo = n;
+    return 1;
+}
+
+/* A point between the steps of vg_rate_eval_row. */
+typedef struct {
+    double d;      /* gap - reorganization */
+    double A;      /* exp(2 c hbar omega d) */
+    double sum;    /* assisted sum relative to the peak term */
+    double t0;     /* t_0 relative to the peak term, -1 until known */
+    long p;        /* the peak channel */
+    int lin;       /* 1 while the linear path keeps the point */
+} lin_point;
+
+/* Step 1: the inputs, the elastic and bare logs, and A. */
+static void step_start(vg_rate_mode *m, const vg_rate_row *row, double gap, lin_point *lp,
+                       vg_rates *out)
+{
+    chan_seq s = {m, gap - row->reorg, row->inv4lkt, 0};
+    double ln_a = row->two_c_mode * s.d;
+    double centre = s.d * m->inv_mode;
+
+    lp->d = s.d;
     out->ln_fc_bare = ln_gauss(s.d, 0.0, s.inv4lkt);
     out->ln_fc_elastic = chan_a(&s, 0);
     out->ln_fc_assisted = -HUGE_VAL;
     out->ln_fc_total = out->ln_fc_elastic;
+    out->assisted_fraction = 0.0;
     out->assisted_zero = m->S == 0.0;
     out->n_lo = out->n_hi = out->n_peak = 0;
-    if (!out->assisted_zero && (st = assisted_sum(&s, tol, out, err)) != VG_OK)
-        return st;
-    finish_rates(out, ln_p, coupling_meV == 0.0);
+    lp->lin = !out->assisted_zero && fabs(ln_a) <= LIN_LIMIT
+              && fabs(centre) <= (double)CHANNEL_LIMIT && m->S <= (double)CHANNEL_LIMIT;
+    lp->p = lp->lin ? (long)centre : 0;
+    lp->A = lp->lin ? exp(ln_a) : 0.0;
+}
+
+/* Step 2: the peak and the sums (declines the point by clearing lin). */
+static void step_sums(vg_rate_mode *m, vg_rate_row *row, double tol, lin_point *lp,
+                      vg_rates *out)
+{
+    long nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
+    long g = lp->p < nmin ? nmin : lp->p;
+
+    if (!lp->lin)
+        return;
+    lp->lin = lin_peak(m, row, nmin, g, lp->A, &lp->p);
+    if (!lp->lin)
+        return;
+    lp->sum = lp->p != 0 ? 1.0 : 0.0;
+    lp->t0 = lp->p == 0 ? 1.0 : -1.0;
+    lp->lin = lin_sums(m, row, nmin, lp->p, lp->A, 1.0 / lp->A, 0.25 * tol, &lp->sum,
+                       &lp->t0, &out->n_lo, &out->n_hi)
+              && lp->sum >= LIN_SUM_MIN;
+}
+
+/* Step 3: the logs of the sums and the fraction. */
+static void step_logs(vg_rate_mode *m, const vg_rate_row *row, lin_point *lp, vg_rates *out)
+{
+    chan_seq s = {m, lp->d, row->inv4lkt, 0};
+    double a_p, sum = lp->sum, t0 = lp->t0;
+
+    if (!lp->lin)
+        return;
+    a_p = chan_a(&s, lp->p);
+    if (t0 < 0.0) { /* the window stopped short of n = 0, so t_0 < t_p */
+        double dl = out->ln_fc_elastic - a_p;
+        t0 = dl < log(HALF_ULP) ? 0.0 : exp(dl);
+    }
+    out->n_peak = lp->p;
+    out->ln_fc_assisted = a_p + log(sum);
+    if (t0 <= HALF_ULP * sum)
+        out->ln_fc_total = out->ln_fc_assisted;
+    else if (t0 * HALF_ULP > sum)
+        out->ln_fc_total = out->ln_fc_elastic;
+    else
+        out->ln_fc_total = a_p + log(sum + t0);
+    out->assisted_fraction = sum / (sum + t0);
+}
+
+/* k_assisted / k_total from the log difference, for the log path. */
+static double fraction_from_logs(double ln_assisted, double ln_elastic)
+{
+    double d = ln_assisted - ln_elastic;
+
+    if (d >= 0.0)
+        return 1.0 / (1.0 + exp(-d));
+    return exp(d) / (1.0 + exp(d));
+}
+
+/* Step 4: the log path for the points the linear path declined, the
+ * prefactor, and the final check. */
+static vg_status step_finish(vg_rate_mode *m, const vg_rate_row *row, double gap,
+                             double tol, const lin_point *lp, vg_rates *out, vg_error *err)
+{
+    if (!out->assisted_zero && !lp->lin) {
+        chan_seq s = {m, lp->d, row->inv4lkt, m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT};
+        vg_status st = assisted_sum(&s, tol, out, err);
+        if (st != VG_OK)
+            return st;
+        out->assisted_fraction = fraction_from_logs(out->ln_fc_assisted, out->ln_fc_elastic);
+    }
+    finish_rates(out, row->ln_p, row->coupling == 0.0);
     if (!rates_valid(out))
         return vg_error_set(err, VG_ENUMERIC,
                             "rate kernel produced a non-finite value at gap %g meV, "
                             "reorganization %g meV, coupling %g meV, huang_rhys %g, "
-                            "mode %g meV, k_B T %g meV", gap_meV, reorg_meV,
-                            coupling_meV, m->S, m->mode, m->kT);
+                            "mode %g meV, k_B T %g meV", gap, row->reorg,
+                            row->coupling, m->S, m->mode, m->kT);
     return VG_OK;
+}
+
+vg_status vg_rate_eval_row(vg_rate_mode *m, vg_rate_row *row, double gap_meV, double tol,
+                           vg_rates *out, vg_error *err)
+{
+    lin_point lp;
+    vg_status st = point_check(m, row, gap_meV, tol, out, err);
+
+    if (st != VG_OK)
+        return st;
+    step_start(m, row, gap_meV, &lp, out);
+    step_sums(m, row, tol, &lp, out);
+    step_logs(m, row, &lp, out);
+    return step_finish(m, row, gap_meV, tol, &lp, out, err);
+}
+
+vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,
+                       double coupling_meV, double tol, vg_rates *out,
+                       vg_error *err)
+{
+    vg_rate_row row;
+    vg_status st;
+
+    row.q_len = 0;
+    row.q_lo = 0;
+    row.gen = 0;
+    st = row_init(&row, m, reorg_meV, coupling_meV, err);
+    if (st != VG_OK)
+        return st;
+    return vg_rate_eval_row(m, &row, gap_meV, tol, out, err);
 }
 
 vg_status vg_rate_eval_batch(vg_rate_mode *m, size_t count, const double *gap_meV,

@@ -30,9 +30,13 @@
 
 typedef struct {
     vg_rate_mode mode;
-    size_t key;            /* flat index of the (S, mode, T) triple, or SIZE_MAX */
+    vg_rate_row row;
+    size_t key;            /* index of the (S, mode, T) triple, or SIZE_MAX */
+    size_t row_key;        /* index of the (S, mode, T, V, lambda) row, or SIZE_MAX */
     double *tab;
     unsigned char *set;
+    double *q, *qi;        /* the row's step cache, over the same channels */
+    unsigned *qgen;
     vg_status status;      /* first failure of this thread */
     size_t fail_at;        /* its flat index */
     vg_error err;
@@ -90,64 +94,139 @@ static vg_status worker_mode(worker *w, const vg_grid *g, const reach *r,
         return st;
     table_range(r, v[VG_P_HUANG_RHYS], v[VG_P_MODE], &lo, &len);
     vg_rate_mode_attach_table(&w->mode, lo, len, w->tab, w->set);
+    vg_rate_row_attach(&w->row, lo, len, w->q, w->qi, w->qgen);
     w->key = key;
+    w->row_key = SIZE_MAX;
     return VG_OK;
 }
 
-/* Flat index of the point's (S, mode, T) triple: the point with every
- * faster coordinate zeroed. */
-static size_t mode_key(const vg_grid *g, size_t flat)
+/* A block of consecutive points walked with an odometer over the axes, so
+ * that no point needs a division: c[k] is the index along axis k. */
+typedef struct {
+    const vg_grid *g;
+    size_t c[VG_NPARAM];
+} odometer;
+
+static void odo_start(odometer *o, const vg_grid *g, size_t flat)
 {
-    size_t s = g->stride[VG_P_HUANG_RHYS];
-
-    s = s ? s : g->stride[VG_P_MODE];
-    s = s ? s : g->stride[VG_P_TEMPERATURE];
-    return s ? flat - flat % s : 0;
-}
-
-static void point(worker *w, const vg_grid *g, const reach *r, size_t flat, double *out)
-{
-    double v[VG_NPARAM];
-    vg_rates rates;
-    vg_status st;
-
-    vg_grid_values(g, flat, v);
-    st = worker_mode(w, g, r, v, mode_key(g, flat));
-    if (st == VG_OK)
-        st = vg_rate_eval(&w->mode, v[VG_P_GAP], v[VG_P_REORG], v[VG_P_COUPLING],
-                          g->cfg->tolerance, &rates, &w->err);
-    if (st != VG_OK) {
-        w->key = SIZE_MAX;
-        if (w->status == VG_OK) {
-            w->status = st;
-            w->fail_at = flat;
-        }
-        for (int m = 0; m < VG_N_METRICS; m++)
-            out[m] = VG_FILL;
-        return;
+    o->g = g;
+    for (size_t k = g->naxes; k-- > 0;) {
+        o->c[k] = flat % g->dim[k];
+        flat /= g->dim[k];
     }
-    vg_metrics_from_rates(&rates, out);
 }
 
-/* Points are dealt to threads in blocks of 1024 rather than one half of the
- * chunk each, because cost varies along the grid (larger reorganization,
- * more channels); each point is still computed alone, so the result does not
- * depend on the split. */
+/* Move n points on, n never past the end of the fastest axis's run. */
+static void odo_advance(odometer *o, size_t n)
+{
+    size_t k = o->g->naxes;
+
+    if (k == 0)
+        return;
+    o->c[k - 1] += n;
+    while (k-- > 0 && o->c[k] >= o->g->dim[k]) {
+        o->c[k] = 0;
+        if (k > 0)
+            o->c[k - 1]++;
+    }
+}
+
+/* Index of the point's values along every parameter (0 for scalars). */
+static void odo_index(const odometer *o, size_t idx[VG_NPARAM])
+{
+    for (int p = 0; p < VG_NPARAM; p++)
+        idx[p] = 0;
+    for (size_t k = 0; k < o->g->naxes; k++)
+        idx[o->g->axis[k]] = o->c[k];
+}
+
+static void fail(worker *w, vg_status st, size_t flat, double *out)
+{
+    w->key = SIZE_MAX;
+    if (w->status == VG_OK) {
+        w->status = st;
+        w->fail_at = flat;
+    }
+    for (int m = 0; m < VG_N_METRICS; m++)
+        out[m] = VG_FILL;
+}
+
+/* A segment of points that differ only in gap (consecutive along the gap
+ * axis, or one point when gap is not the fastest axis): the weights' record
+ * when the (S, mode, T) triple changes, the row's when (V, lambda) change
+ * too, then the kernel point by point. */
+static void segment(worker *w, const vg_grid *g, const reach *r, const size_t idx[VG_NPARAM],
+                    size_t n, size_t flat, double *out)
+{
+    const vg_config *cfg = g->cfg;
+    const double *gap = cfg->param[VG_P_GAP].v + idx[VG_P_GAP];
+    size_t key = (idx[VG_P_TEMPERATURE] * cfg->param[VG_P_MODE].n + idx[VG_P_MODE])
+                 * cfg->param[VG_P_HUANG_RHYS].n + idx[VG_P_HUANG_RHYS];
+    size_t row_key = (key * cfg->param[VG_P_COUPLING].n + idx[VG_P_COUPLING])
+                     * cfg->param[VG_P_REORG].n + idx[VG_P_REORG];
+    vg_status st = VG_OK;
+
+    if (w->key != key) {
+        double v[VG_NPARAM];
+        for (int p = 0; p < VG_NPARAM; p++)
+            v[p] = cfg->param[p].v[idx[p]];
+        st = worker_mode(w, g, r, v, key);
+    }
+    if (st == VG_OK && w->row_key != row_key) {
+        st = vg_rate_row_begin(&w->row, &w->mode, cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
+                               cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]], &w->err);
+        w->row_key = st == VG_OK ? row_key : SIZE_MAX;
+    }
+    for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
+        vg_rates rates;
+        if (st == VG_OK)
+            st = vg_rate_eval_row(&w->mode, &w->row, gap[j], cfg->tolerance, &rates, &w->err);
+        if (st != VG_OK) { /* the sweep stops at this chunk: fill the rest */
+            for (; j < n; j++, out += VG_N_METRICS)
+                fail(w, st, flat + j, out);
+            w->row_key = SIZE_MAX;
+            return;
+        }
+        vg_metrics_from_rates(&rates, out);
+    }
+}
+
+#define BLOCK 1024
+
+/* Points are dealt to threads in blocks of BLOCK rather than one half of
+ * the chunk each, because cost varies along the grid (larger
+ * reorganization, more channels); each point is still computed alone, so
+ * the result does not depend on the split. */
 static void compute_chunk(worker *ws, int nthreads, const vg_grid *g, const reach *r,
                           size_t start, size_t count, double *metrics)
 {
-    long i, n = (long)count;
+    long b, nb = (long)((count + BLOCK - 1) / BLOCK);
+    int gap_fastest = g->naxes > 0 && g->axis[g->naxes - 1] == VG_P_GAP;
 
 #ifdef _OPENMP
-#pragma omp parallel for schedule(static, 1024) num_threads(nthreads)
+#pragma omp parallel for schedule(static, 1) num_threads(nthreads)
 #endif
-    for (i = 0; i < n; i++) {
+    for (b = 0; b < nb; b++) {
 #ifdef _OPENMP
         worker *w = &ws[omp_get_thread_num()];
 #else
         worker *w = &ws[0];
 #endif
-        point(w, g, r, start + (size_t)i, metrics + (size_t)i * VG_N_METRICS);
+        size_t i = (size_t)b * BLOCK, i1 = i + BLOCK < count ? i + BLOCK : count;
+        odometer o;
+
+        odo_start(&o, g, start + i);
+        while (i < i1) {
+            size_t idx[VG_NPARAM], n = 1;
+            odo_index(&o, idx);
+            if (gap_fastest) {
+                n = g->dim[g->naxes - 1] - o.c[g->naxes - 1];
+                n = n < i1 - i ? n : i1 - i;
+            }
+            segment(w, g, r, idx, n, start + i, metrics + i * VG_N_METRICS);
+            i += n;
+            odo_advance(&o, n);
+        }
     }
     (void)nthreads;
 }
@@ -196,6 +275,9 @@ static void workers_free(worker *ws, int nthreads)
     for (int t = 0; t < nthreads; t++) {
         free(ws[t].tab);
         free(ws[t].set);
+        free(ws[t].q);
+        free(ws[t].qi);
+        free(ws[t].qgen);
     }
     free(ws);
 }
@@ -207,10 +289,13 @@ static worker *workers_alloc(int nthreads)
     if (!ws)
         return NULL;
     for (int t = 0; t < nthreads; t++) {
-        ws[t].key = SIZE_MAX;
+        ws[t].key = ws[t].row_key = SIZE_MAX;
         ws[t].tab = malloc(TABLE_MAX * sizeof *ws[t].tab);
         ws[t].set = malloc(TABLE_MAX);
-        if (!ws[t].tab || !ws[t].set) {
+        ws[t].q = malloc(TABLE_MAX * sizeof *ws[t].q);
+        ws[t].qi = malloc(TABLE_MAX * sizeof *ws[t].qi);
+        ws[t].qgen = malloc(TABLE_MAX * sizeof *ws[t].qgen);
+        if (!ws[t].tab || !ws[t].set || !ws[t].q || !ws[t].qi || !ws[t].qgen) {
             workers_free(ws, nthreads);
             return NULL;
         }

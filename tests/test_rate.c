@@ -400,6 +400,7 @@ static void assert_same_rates(const vg_rates *a, const vg_rates *b)
 
     for (size_t i = 0; i < sizeof x / sizeof x[0]; i++)
         assert_memory_equal(x[i], y[i], sizeof(double));
+    assert_memory_equal(&a->assisted_fraction, &b->assisted_fraction, sizeof(double));
     assert_true(a->n_lo == b->n_lo && a->n_hi == b->n_hi && a->n_peak == b->n_peak);
 }
 
@@ -531,8 +532,8 @@ static void test_metric_table(void **state)
 }
 
 /* The definitions of docs/theory.md on a hand-made record: log10 = ln / ln 10,
- * fraction = k_as / (k_el + k_as) from the log difference without overflow
- * (difference +-800: 1 and e^-800 -> 0, never NaN), contrast = total/bare. */
+ * contrast = total/bare, the fraction copied from the kernel's record (the
+ * kernel forms it from its sums: test_fraction_from_kernel). */
 static void test_metric_values(void **state)
 {
     vg_rates r = {0};
@@ -547,17 +548,20 @@ static void test_metric_values(void **state)
     r.ln_k_assisted = 2.385 + r.ln_fc_assisted;
     r.ln_k_total = 2.385 + r.ln_fc_total;
     r.ln_k_bare = 2.385 + r.ln_fc_bare;
+    r.assisted_fraction = 1.0;
     vg_metrics_from_rates(&r, met);
     assert_near(met[VG_M_LOG10_K_ELASTIC], (2.385 - 23.85) / log(10.0), 1e-15, "log10 k_el");
     assert_near(met[VG_M_LOG10_RATIO], 800.0 / log(10.0), 1e-13, "log10 ratio");
     assert_true(met[VG_M_ASSISTED_FRACTION] == 1.0);
     assert_near(met[VG_M_LOG10_CONTRAST], (r.ln_fc_total + 38.5) / log(10.0), 1e-13, "contrast");
-    r.ln_fc_assisted = -23.85 - 800.0;
-    vg_metrics_from_rates(&r, met);
-    assert_true(met[VG_M_ASSISTED_FRACTION] >= 0.0 && met[VG_M_ASSISTED_FRACTION] < 1e-300);
     r.ln_fc_assisted = r.ln_fc_elastic + log(3.0); /* fraction 3/4 */
+    r.assisted_fraction = 0.75;
     vg_metrics_from_rates(&r, met);
-    assert_near(met[VG_M_ASSISTED_FRACTION], 0.75, 2.0 * DBL_EPSILON, "fraction 3/4");
+    assert_true(met[VG_M_ASSISTED_FRACTION] == 0.75);
+    r.assisted_zero = 1; /* S = 0: no assisted channel, fraction exactly 0 */
+    vg_metrics_from_rates(&r, met);
+    assert_true(met[VG_M_ASSISTED_FRACTION] == 0.0 && met[VG_M_LOG10_RATIO] == VG_FILL);
+    r.assisted_zero = 0;
     r.coupling_zero = 1; /* V = 0: rates fill, ratios stay */
     vg_metrics_from_rates(&r, met);
     for (int k = VG_M_LOG10_K_ELASTIC; k <= VG_M_LOG10_K_BARE; k++)
@@ -598,6 +602,68 @@ static void assert_fails(vg_status st, const vg_error *err, const char *subject)
         fail_msg("message '%s' does not name %s", err->msg, subject);
     assert_true(len > 0 && err->msg[len - 1] != '.');
     assert_false(err->msg[0] >= 'A' && err->msg[0] <= 'Z');
+}
+
+/* The fraction the kernel forms from its sums against its own logs:
+ * k_as / k_tot = exp(ln k_as - ln k_tot) and k_el / k_tot = 1 - fraction
+ * (the definitions, docs/theory.md), over points on both sides of the
+ * elastic/assisted crossover, deep in either regime (fraction -> 0 and -> 1),
+ * and at 1 K where the steps leave the linear range (the log path). */
+static void test_fraction_from_kernel(void **state)
+{
+    static const double gaps[] = {-800.0, -200.0, 0.0, 30.0, 100.0, 230.0, 430.0, 1500.0};
+    static const double temps[] = {1.0, 77.35, 298.15, 2385.0};
+    static const double S[] = {1e-6, 0.0385, 2.385};
+
+    (void)state;
+    for (size_t t = 0; t < 4; t++)
+        for (size_t k = 0; k < 3; k++) {
+            vg_rate_mode m = mode_of(VG_STATS_THERMAL, S[k], 200.0, temps[t]);
+            for (size_t i = 0; i < 8; i++) {
+                vg_rates r = eval_at(&m, gaps[i], 30.0, 1.0, TIGHT);
+                double f = r.assisted_fraction;
+                assert_true(f >= 0.0 && f <= 1.0);
+                assert_near(f, exp(r.ln_fc_assisted - r.ln_fc_total), 1e-13, "fraction");
+                assert_near(1.0 - f, exp(r.ln_fc_elastic - r.ln_fc_total), 1e-13, "1 - fraction");
+            }
+        }
+}
+
+/* A row record with its step cache gives the same bits as vg_rate_eval, over
+ * rows that share the cache (so entries of an earlier row must not leak into
+ * the next), channels outside the cache, points the linear path declines
+ * (|2 c hbar omega d| > 300 at 23.85 K and a 4 eV gap), and a wrapped
+ * generation counter. */
+static void test_row_cache_is_transparent(void **state)
+{
+    enum { LEN = 33 };
+    double q[LEN], qi[LEN];
+    unsigned gen[LEN];
+    static const double reorgs[] = {12.385, 123.85, 30.0, 12.385};
+    static const double gaps[] = {-4000.0, -385.0, -30.0, 0.0, 61.7, 230.0, 385.0,
+                                  1238.5, 4000.0};
+    vg_rate_row row = {0};
+    (void)state;
+    for (int st = 0; st < 2; st++)
+        for (int T = 0; T < 2; T++) {
+            vg_rate_mode m = mode_of(st ? VG_STATS_FROZEN : VG_STATS_THERMAL, 0.385, 61.7,
+                                     T ? 298.15 : 23.85);
+            vg_rate_row_attach(&row, -16, LEN, q, qi, gen);
+            for (int wrap = 0; wrap < 2; wrap++) {
+                if (wrap)
+                    row.gen = ~0u - 1u; /* the next two begins wrap the counter */
+                for (size_t r = 0; r < 4; r++) {
+                    assert_int_equal(vg_rate_row_begin(&row, &m, reorgs[r], 2.385, NULL), VG_OK);
+                    for (size_t i = 0; i < sizeof gaps / sizeof gaps[0]; i++) {
+                        vg_rates a = eval_at(&m, gaps[i], reorgs[r], 2.385, TIGHT);
+                        vg_rates b;
+                        assert_int_equal(vg_rate_eval_row(&m, &row, gaps[i], TIGHT, &b, NULL),
+                                         VG_OK);
+                        assert_same_rates(&a, &b);
+                    }
+                }
+            }
+        }
 }
 
 static void test_mode_init_errors(void **state)
@@ -725,6 +791,8 @@ int main(void)
         cmocka_unit_test(test_metric_table),
         cmocka_unit_test(test_metric_values),
         cmocka_unit_test(test_zero_coupling),
+        cmocka_unit_test(test_fraction_from_kernel),
+        cmocka_unit_test(test_row_cache_is_transparent),
         cmocka_unit_test(test_mode_init_errors),
         cmocka_unit_test(test_eval_errors),
         cmocka_unit_test(test_batch),
