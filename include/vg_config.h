@@ -12,6 +12,7 @@
 #include "vg_status.h"
 #include "vg_rate.h"
 #include "vg_metrics.h"
+#include "vg_prior.h"
 
 /* The six parameters, in CSV column order. */
 typedef enum {
@@ -80,6 +81,30 @@ typedef struct {
     char no_maps[VG_ERROR_MAX]; /* why maps cannot be drawn on this grid, "" if they can */
 } vg_figure_spec;
 
+/* [isotope]: the heavy isotopologue of the odorant mode. */
+typedef enum { VG_HR_BORN_OPPENHEIMER = 0, VG_HR_FIXED = 1 } vg_hr_rule;
+
+typedef struct {
+    int on;                   /* 1 if [isotope] is given */
+    double frequency_ratio;   /* omega_light / omega_heavy (1.362 for C-H -> C-D) */
+    vg_hr_rule rule;          /* born_oppenheimer: S hbar omega fixed; fixed: S fixed */
+    int line;                 /* line of the key that set the ratio, -1 = --set */
+} vg_isotope;
+
+/* [uncertainty]: priors of the parameters nobody knows well, and the
+ * settings of the global sensitivity and probability analyses. */
+typedef struct {
+    int on;                        /* 1 if [uncertainty] gives at least one prior */
+    int has[VG_NPARAM];            /* 1 where a prior is given */
+    vg_prior prior[VG_NPARAM];     /* canonical units */
+    int line[VG_NPARAM];           /* config line of each prior, -1 = --set */
+    vg_metric_id metric;           /* metric of the Sobol indices (default log10_ratio) */
+    size_t samples;                /* base sample size N (default 4096) */
+    unsigned long seed;            /* default 1 */
+    size_t bootstrap;              /* bootstrap resamples (default 500) */
+    double level;                  /* confidence level (default 0.95) */
+} vg_uncertainty;
+
 typedef struct {
     char *path;               /* config file path as given (owned) */
     char *text;               /* full config file text (owned) */
@@ -94,6 +119,9 @@ typedef struct {
     int metric_on[VG_N_METRICS]; /* which metrics to store (default all) */
     double max_bytes;         /* [output] max_size in bytes */
     vg_figure_spec fig;       /* [output] figures, maps, x, y, panels, rows, ... */
+    vg_isotope isotope;       /* [isotope] */
+    vg_require_set feasibility; /* [feasibility] require = ... lines */
+    vg_uncertainty uncertainty; /* [uncertainty] */
 } vg_config;
 
 /* Parse path, apply the nset overrides "section.key=value" in order, and
@@ -108,6 +136,10 @@ vg_status vg_config_load_text(vg_config *cfg, const char *name, const char *text
                               size_t nset, const char *const *sets, vg_error *err);
 
 void vg_config_free(vg_config *cfg);
+
+/* What metric m needs that cfg lacks ("an [isotope] section", ...), or
+ * NULL when cfg can compute it. */
+const char *vg_config_metric_lacks(const vg_config *cfg, vg_metric_id m);
 
 /* VG_ECONFIG (with the located message) if figures are asked for but the
  * grid cannot have maps (fewer than two axes).  The loader accepts such a

@@ -21,8 +21,16 @@ typedef enum {
     VG_M_LOG10_RATIO,
     VG_M_ASSISTED_FRACTION,
     VG_M_LOG10_CONTRAST,
+    VG_M_LOG10_K_TOTAL_HEAVY,   /* [isotope] only */
+    VG_M_ISOTOPE_EFFECT,        /* [isotope] only: k_total light / heavy */
+    VG_M_LOG10_ISOTOPE_EFFECT,  /* [isotope] only */
+    VG_M_FEASIBLE,              /* [feasibility] only: 1 where every condition holds, else 0 */
     VG_N_METRICS
 } vg_metric_id;
+
+/* Which config section a metric needs (0: none). */
+#define VG_NEEDS_ISOTOPE 1
+#define VG_NEEDS_FEASIBILITY 2
 
 /* NetCDF's default fill for doubles (NC_FILL_DOUBLE); never a valid metric. */
 #define VG_FILL 9.9692099683868690e+36
@@ -31,14 +39,48 @@ typedef struct {
     const char *name;      /* config and output name, e.g. "log10_k_total" */
     const char *units;     /* UDUNITS string, "1" for dimensionless */
     const char *long_name; /* CF long_name */
+    int needs;             /* VG_NEEDS_* bits */
 } vg_metric_info;
+
+/* One feasibility condition, as the loader normalises it: a condition on a
+ * time constant (tau_X < 1 ns) becomes one on log10_k_X (> 9), one on
+ * isotope_effect one on log10_isotope_effect, so that every comparison is
+ * made in the log domain.  A metric stored as VG_FILL because its rate is
+ * exactly zero compares as -infinity (an absent rate is slower than any
+ * time constant). */
+typedef enum { VG_CMP_LT = 0, VG_CMP_LE, VG_CMP_GT, VG_CMP_GE } vg_cmp;
+
+typedef struct {
+    vg_metric_id metric;   /* the metric compared */
+    vg_cmp op;
+    double value;          /* the threshold, in the metric's units */
+    char text[128];        /* the condition as written, for messages and summaries */
+    int line;              /* config line, -1 = --set */
+} vg_require;
+
+#define VG_MAX_REQUIRE 16
+
+typedef struct {
+    size_t n;
+    vg_require r[VG_MAX_REQUIRE];
+} vg_require_set;
+
+/* 1 if every condition of req holds for the metrics m (1 for an empty set). */
+int vg_require_holds(const vg_require_set *req, const double m[VG_N_METRICS]);
 
 const vg_metric_info *vg_metric_get(vg_metric_id id);
 
 /* Index of the metric called name, or -1. */
 int vg_metric_find(const char *name);
 
-/* All metrics of one point, in enum order, into out[VG_N_METRICS]. */
+/* All metrics of one point, in enum order, into out[VG_N_METRICS]; the
+ * [isotope] and [feasibility] ones are VG_FILL. */
 void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS]);
+
+/* The same with the heavy isotopologue's rates (heavy may be NULL: no
+ * [isotope]) and the feasibility conditions (req may be NULL or empty: no
+ * [feasibility]). */
+void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
+                        const vg_require_set *req, double out[VG_N_METRICS]);
 
 #endif

@@ -31,11 +31,18 @@ vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_render(const vg_cmd_args *a, vg_error *err);
 vg_status vg_cmd_spectrum(const vg_cmd_args *a, vg_error *err);
+vg_status vg_cmd_uncertainty(const vg_cmd_args *a, vg_error *err);
+vg_status vg_cmd_sensitivity(const vg_cmd_args *a, vg_error *err);
 
 /* Draw the maps of the data file nc_path into dir (render, and sweep after
  * its data are committed); default_png: draw PNG when the config names no
  * figure format. */
 vg_status vg_cmd_figures(const char *nc_path, const char *dir, size_t nset,
                          const char *const *sets, int quiet, int default_png, vg_error *err);
+
+/* summary.json and summary.txt of the feasibility window of the data file
+ * nc_path into dir (sweep, after its data are committed, when the config
+ * has [feasibility]). */
+vg_status vg_cmd_summary(const char *nc_path, const char *dir, int quiet, vg_error *err);
 
 #endif

@@ -10,6 +10,7 @@
 #include "cmd.h"
 #include "vg_config.h"
 #include "vg_const.h"
+#include "vg_evaluate.h"
 #include "vg_metrics.h"
 
 /* Channels listed: n = 0 always, others carrying at least this share of
@@ -21,6 +22,8 @@ typedef struct {
     vg_rate_mode mode;
     vg_rates r;
     double metric[VG_N_METRICS];
+    const vg_config *cfg;
+    vg_eval_result ev;
 } point_result;
 
 static vg_status require_scalars(const vg_config *cfg, vg_error *err)
@@ -41,13 +44,13 @@ static vg_status compute(const vg_config *cfg, point_result *pr, vg_error *err)
 
     for (int p = 0; p < VG_NPARAM; p++)
         pr->v[p] = cfg->param[p].v[0];
-    st = vg_rate_mode_init(&pr->mode, cfg->stats, pr->v[VG_P_HUANG_RHYS], pr->v[VG_P_MODE],
-                           pr->v[VG_P_TEMPERATURE], err);
-    if (st == VG_OK)
-        st = vg_rate_eval(&pr->mode, pr->v[VG_P_GAP], pr->v[VG_P_REORG],
-                          pr->v[VG_P_COUPLING], cfg->tolerance, &pr->r, err);
-    if (st == VG_OK)
-        vg_metrics_from_rates(&pr->r, pr->metric);
+    pr->cfg = cfg;
+    st = vg_evaluate(cfg, pr->v, &pr->ev, err);
+    if (st != VG_OK)
+        return st;
+    pr->mode = pr->ev.light_mode;
+    pr->r = pr->ev.light;
+    memcpy(pr->metric, pr->ev.metric, sizeof pr->metric);
     return st;
 }
 
@@ -107,7 +110,11 @@ static void print_text(const vg_config *cfg, point_result *pr)
     printf("\nmetrics\n");
     for (int m = 0; m < VG_N_METRICS; m++) {
         const vg_metric_info *mi = vg_metric_get((vg_metric_id)m);
-        if (pr->metric[m] == VG_FILL)
+        if (vg_config_metric_lacks(pr->cfg, (vg_metric_id)m))
+            continue;
+        if (pr->metric[m] == VG_FILL && m == VG_M_ISOTOPE_EFFECT)
+            printf("  %-20s beyond 1e+-300 (see log10_isotope_effect)\n", mi->name);
+        else if (pr->metric[m] == VG_FILL)
             printf("  %-20s undefined (a rate is exactly zero)\n", mi->name);
         else
             printf("  %-20s %.10g\n", mi->name, pr->metric[m]);
@@ -163,6 +170,8 @@ static void print_json(const vg_config *cfg, point_result *pr)
         print_json_channel(pr, 0, first);
     printf("\n  ],\n  \"metrics\": {");
     for (int m = 0; m < VG_N_METRICS; m++) {
+        if (vg_config_metric_lacks(pr->cfg, (vg_metric_id)m))
+            continue;
         printf("%s\"%s\": ", m ? ", " : "", vg_metric_get((vg_metric_id)m)->name);
         json_number(pr->metric[m]);
     }

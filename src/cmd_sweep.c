@@ -294,10 +294,13 @@ static vg_status conclude(const vg_cmd_args *a, const vg_config *cfg, const vg_g
     if (st != VG_OK)
         return stopped(a, g, ck, st, err);
     finish_checkpoint(ck);
-    if (cfg->fig.formats) {
+    if (cfg->fig.formats || cfg->feasibility.n > 0) {
         char nc[4200];
         snprintf(nc, sizeof nc, "%s/sweep.nc", dir);
-        st = vg_cmd_figures(nc, dir, 0, NULL, a->quiet, 0, err);
+        if (cfg->feasibility.n > 0)
+            st = vg_cmd_summary(nc, dir, a->quiet, err);
+        if (st == VG_OK && cfg->fig.formats)
+            st = vg_cmd_figures(nc, dir, 0, NULL, a->quiet, 0, err);
     }
     return st;
 }

@@ -35,6 +35,7 @@
 #include "fmt.h"
 #include "vg_config.h"
 #include "vg_const.h"
+#include "vg_evaluate.h"
 #include "vg_grid.h"
 #include "vg_metrics.h"
 
@@ -49,6 +50,7 @@
 #define CFG_TOL_MIN 1e-15
 #define CFG_TOL_MAX 1e-3
 #define CFG_TOL_DEFAULT 1e-12
+#define CFG_ISO_MAX 10.0               /* largest isotope frequency or mass ratio */
 #define CFG_MAX_BYTES_DEFAULT 4294967296.0 /* 4 GiB */
 #define CFG_DIR_DEFAULT "vibrogate-out"
 #define FIG_WIDTH_MIN 1.0              /* figure width, inches */
@@ -1306,12 +1308,312 @@ static vg_status set_mark(vg_config *cfg, int arg, const char *value, int line, 
 }
 
 /* ------------------------------------------------------------------ */
+/* [isotope], [feasibility] and [uncertainty] (docs/config.md).       */
+
+/* A whole number from lo to hi. */
+static vg_status parse_count_key(const char *key, const char *value, double lo, double hi,
+                                 double *out, vg_error *err)
+{
+    vg_status st = parse_plain(key, value, "is a count and takes no unit", lo, hi, out, err);
+    shown b;
+
+    if (st == VG_OK && *out != floor(*out))
+        st = vg_error_set(err, VG_ECONFIG, "'%s' must be a whole number (got %s)", key,
+                          show(span_of(value), &b));
+    return st;
+}
+
+/* frequency_ratio (arg 0) or reduced_mass_ratio (arg 1). */
+static vg_status set_iso_ratio(vg_config *cfg, int arg, const char *value, int line,
+                               vg_error *err)
+{
+    const char *key = arg ? "reduced_mass_ratio" : "frequency_ratio";
+    double x;
+    vg_status st = parse_plain(key, value, "is a ratio and takes no unit", -HUGE_VAL, HUGE_VAL,
+                               &x, err);
+
+    if (st == VG_OK && !(x > 1.0))
+        st = vg_error_set(err, VG_ECONFIG, "'%s' must be > 1 (%s; got %s)", key,
+                          arg ? "heavy over light reduced mass" : "light over heavy frequency",
+                          value);
+    if (st == VG_OK && x > CFG_ISO_MAX)
+        st = vg_error_set(err, VG_ECONFIG, "'%s' must be at most %g (got %s)", key,
+                          CFG_ISO_MAX, value);
+    if (st != VG_OK)
+        return st;
+    cfg->isotope.frequency_ratio = arg ? vg_isotope_frequency_ratio(x) : x;
+    cfg->isotope.line = line;
+    return VG_OK;
+}
+
+static vg_status set_iso_rule(vg_config *cfg, int arg, const char *value, int line,
+                              vg_error *err)
+{
+    static const char *const names[] = {"born_oppenheimer", "fixed"};
+    size_t k;
+    vg_status st = lookup_name("huang_rhys_rule", "rule", span_trim(span_of(value)), names, 2,
+                               &k, err);
+
+    (void)arg;
+    (void)line;
+    if (st == VG_OK)
+        cfg->isotope.rule = k ? VG_HR_FIXED : VG_HR_BORN_OPPENHEIMER;
+    return st;
+}
+
+/* Time units of a time-constant condition, in seconds. */
+static const scale_unit time_units[] = {
+    {"fs", 1e-15}, {"ps", 1e-12}, {"ns", 1e-9}, {"us", 1e-6}, {"ms", 1e-3}, {"s", 1.0},
+};
+
+static const char *const tau_names[] = {"tau_elastic", "tau_assisted", "tau_total"};
+static const vg_metric_id tau_rates[] = {VG_M_LOG10_K_ELASTIC, VG_M_LOG10_K_ASSISTED,
+                                         VG_M_LOG10_K_TOTAL};
+
+/* The comparison at the start of a, its length into *len; -1 if none. */
+static int parse_cmp(span a, size_t *len)
+{
+    if (a.n >= 2 && (memcmp(a.s, "<=", 2) == 0 || memcmp(a.s, ">=", 2) == 0)) {
+        *len = 2;
+        return a.s[0] == '<' ? VG_CMP_LE : VG_CMP_GE;
+    }
+    if (a.n >= 1 && (a.s[0] == '<' || a.s[0] == '>')) {
+        *len = 1;
+        return a.s[0] == '<' ? VG_CMP_LT : VG_CMP_GT;
+    }
+    return -1;
+}
+
+/* The names a condition may start with: every metric but feasible, and
+ * the time constants. */
+static size_t require_names(const char **names)
+{
+    size_t n = 0;
+
+    for (int m = 0; m < VG_N_METRICS; m++)
+        if (m != VG_M_FEASIBLE)
+            names[n++] = vg_metric_get((vg_metric_id)m)->name;
+    for (size_t t = 0; t < 3; t++)
+        names[n++] = tau_names[t];
+    return n;
+}
+
+/* The value of a condition on metric name into c (normalised as
+ * vg_metrics.h describes). */
+static vg_status require_value(span name, const char *text, vg_require *c, vg_error *err)
+{
+    char key[64];
+    double x;
+    span num, unit;
+    size_t which;
+    shown b;
+    vg_status st;
+
+    snprintf(key, sizeof key, "%.*s", (int)(name.n < 40 ? name.n : 40), name.s);
+    for (size_t t = 0; t < 3; t++)
+        if (span_is(name, tau_names[t])) {
+            st = parse_scaled(key, text, time_units, 6, "fs, ps, ns, us, ms or s", &x, &num,
+                              &which, err);
+            if (st == VG_OK && !(x > 0.0))
+                st = vg_error_set(err, VG_ECONFIG, "'%s' must be compared with a time > 0 "
+                                  "(got '%s')", key, show(span_of(text), &b));
+            if (st != VG_OK)
+                return st;
+            /* tau = 1/k: tau < t  <=>  log10 k > -log10 t */
+            c->metric = tau_rates[t];
+            c->op = c->op == VG_CMP_LT ? VG_CMP_GT : c->op == VG_CMP_LE ? VG_CMP_GE
+                    : c->op == VG_CMP_GT ? VG_CMP_LT : VG_CMP_LE;
+            c->value = -log10(x);
+            return VG_OK;
+        }
+    st = parse_scalar(key, text, &x, &num, &unit, err);
+    if (st == VG_OK && unit.n > 0)
+        st = vg_error_set(err, VG_ECONFIG, "'%s' is dimensionless and takes no unit (got '%s')",
+                          key, show(span_of(text), &b));
+    if (st != VG_OK)
+        return st;
+    c->metric = (vg_metric_id)vg_metric_find(key);
+    c->value = x;
+    if (c->metric == VG_M_ISOTOPE_EFFECT) { /* compared in the log domain */
+        if (!(x > 0.0))
+            return vg_error_set(err, VG_ECONFIG, "'isotope_effect' must be compared with a "
+                                "ratio > 0 (got '%s')", show(span_of(text), &b));
+        c->metric = VG_M_LOG10_ISOTOPE_EFFECT;
+        c->value = log10(x);
+    }
+    return VG_OK;
+}
+
+/* "METRIC OP VALUE [UNIT]", one condition per line, all of which must hold. */
+static vg_status set_require(vg_config *cfg, int arg, const char *value, int line,
+                             vg_error *err)
+{
+    span a = span_trim(span_of(value)), name, rest;
+    const char *names[VG_N_METRICS + 3];
+    size_t n = require_names(names), len = 0, k, i = 0;
+    vg_require c;
+    char text[CFG_LINE_MAX + 1];
+    shown b;
+    int op;
+    vg_status st;
+
+    (void)arg;
+    if (cfg->feasibility.n == VG_MAX_REQUIRE)
+        return vg_error_set(err, VG_ECONFIG, "at most %d 'require' conditions", VG_MAX_REQUIRE);
+    while (i < a.n && (isalnum((unsigned char)a.s[i]) || a.s[i] == '_'))
+        i++;
+    name = span_part(a, 0, i);
+    rest = span_trim(span_tail(a, i));
+    if (name.n == 0)
+        return vg_error_set(err, VG_ECONFIG, "'require' needs 'METRIC < VALUE' or 'METRIC > "
+                            "VALUE', as in 'log10_ratio > 1' (got '%s')", show(a, &b));
+    st = lookup_name("require", "metric", name, names, n, &k, err);
+    if (st != VG_OK)
+        return st;
+    op = parse_cmp(rest, &len);
+    if (op < 0)
+        return vg_error_set(err, VG_ECONFIG, "'require' needs one of <, <=, >, >= after '%s' "
+                            "(got '%s')", names[k], show(a, &b));
+    rest = span_trim(span_tail(rest, len));
+    snprintf(text, sizeof text, "%.*s", (int)rest.n, rest.s);
+    memset(&c, 0, sizeof c);
+    c.op = (vg_cmp)op;
+    c.line = line;
+    snprintf(c.text, sizeof c.text, "%.*s", (int)(a.n < sizeof c.text - 1 ? a.n
+                                                  : sizeof c.text - 1), a.s);
+    st = require_value(name, text, &c, err);
+    if (st == VG_OK)
+        cfg->feasibility.r[cfg->feasibility.n++] = c;
+    return st;
+}
+
+static const char *const prior_names[] = {"uniform", "loguniform", "normal", "lognormal"};
+
+/* Two items of parameter ps split at sep ("..", ","); b_plain: the second
+ * is a plain number (the log-normal's sigma). */
+static vg_status prior_pair(const param_spec *ps, span a, const char *sep, int b_plain,
+                            double *x, double *y, vg_error *err)
+{
+    size_t at = span_find(a, sep);
+    item it[2];
+    span num, unit;
+    shown b;
+    vg_status st;
+
+    if (at == a.n)
+        return vg_error_set(err, VG_ECONFIG, "a prior of '%s' needs '%s' between its two "
+                            "numbers (got '%s')", ps->info.key, sep, show(a, &b));
+    st = parse_item(ps, span_trim(span_part(a, 0, at)), &it[0], err);
+    if (st != VG_OK)
+        return st;
+    if (b_plain) {
+        st = parse_number(span_trim(span_tail(a, at + strlen(sep))), ps->info.key, y, &num,
+                          &unit, err);
+        if (st == VG_OK && unit.n > 0)
+            st = vg_error_set(err, VG_ECONFIG, "the log-normal sigma of '%s' is a plain number "
+                              "(the spread of ln x) and takes no unit (got '%s')", ps->info.key,
+                              show(a, &b));
+        if (st == VG_OK)
+            st = resolve_units(ps, it, 1, err);
+        *x = item_value(&it[0]);
+        return st;
+    }
+    st = parse_item(ps, span_trim(span_tail(a, at + strlen(sep))), &it[1], err);
+    if (st == VG_OK)
+        st = resolve_units(ps, it, 2, err);
+    *x = item_value(&it[0]);
+    *y = item_value(&it[1]);
+    return st;
+}
+
+/* "uniform A .. B UNIT", "loguniform A .. B UNIT", "normal MEAN UNIT, SD
+ * UNIT", "lognormal MEDIAN UNIT, SIGMA". */
+static vg_status set_prior(vg_config *cfg, int arg, const char *value, int line,
+                           vg_error *err)
+{
+    const param_spec *ps = &params[arg];
+    span a = span_trim(span_of(value)), word = first_word(a);
+    vg_prior pr;
+    size_t k;
+    vg_status st = lookup_name(ps->info.key, "prior", word, prior_names, 4, &k, err);
+
+    if (st != VG_OK)
+        return st;
+    pr.kind = (vg_prior_kind)k;
+    a = span_trim(span_tail(a, word.n));
+    st = prior_pair(ps, a, k < 2 ? ".." : ",", k == 3, &pr.a, &pr.b, err);
+    if (st != VG_OK)
+        return st;
+    st = vg_prior_check(&pr, ps->lo, ps->hi, err);
+    if (st != VG_OK) {
+        vg_error_prefix(err, "prior of '%s': ", ps->info.key);
+        return st;
+    }
+    cfg->uncertainty.on = 1;
+    cfg->uncertainty.has[arg] = 1;
+    cfg->uncertainty.prior[arg] = pr;
+    cfg->uncertainty.line[arg] = line;
+    return VG_OK;
+}
+
+static vg_status set_unc_metric(vg_config *cfg, int arg, const char *value, int line,
+                                vg_error *err)
+{
+    const char *names[VG_N_METRICS];
+    size_t k;
+    vg_status st;
+
+    (void)arg;
+    (void)line;
+    metric_names(names);
+    st = lookup_name("metric", "metric", span_trim(span_of(value)), names, VG_N_METRICS, &k,
+                     err);
+    if (st == VG_OK)
+        cfg->uncertainty.metric = (vg_metric_id)k;
+    return st;
+}
+
+/* samples (0), seed (1), bootstrap (2), level (3). */
+static vg_status set_unc_number(vg_config *cfg, int arg, const char *value, int line,
+                                vg_error *err)
+{
+    vg_uncertainty *u = &cfg->uncertainty;
+    double x;
+    vg_status st;
+
+    (void)line;
+    if (arg == 3) {
+        st = parse_plain("level", value, "is a probability and takes no unit", 0.5, 0.999, &x,
+                         err);
+        if (st == VG_OK)
+            u->level = x;
+        return st;
+    }
+    st = arg == 0 ? parse_count_key("samples", value, 64, 1048576, &x, err)
+         : arg == 1 ? parse_count_key("seed", value, 0, 4294967295.0, &x, err)
+                    : parse_count_key("bootstrap", value, 0, 100000, &x, err);
+    if (st != VG_OK)
+        return st;
+    if (arg == 0)
+        u->samples = (size_t)x;
+    else if (arg == 1)
+        u->seed = (unsigned long)x;
+    else
+        u->bootstrap = (size_t)x;
+    return VG_OK;
+}
+
+/* ------------------------------------------------------------------ */
 /* The table of keys.                                                 */
 
-typedef enum { SEC_SCENARIO, SEC_PARAMETERS, SEC_MODEL, SEC_OUTPUT, N_SECTIONS } section_id;
+typedef enum {
+    SEC_SCENARIO, SEC_PARAMETERS, SEC_MODEL, SEC_OUTPUT, SEC_ISOTOPE, SEC_FEASIBILITY,
+    SEC_UNCERTAINTY, N_SECTIONS
+} section_id;
 
 static const char *const section_names[N_SECTIONS] = {"scenario", "parameters", "model",
-                                                       "output"};
+                                                       "output", "isotope", "feasibility",
+                                                       "uncertainty"};
 
 typedef vg_status (*key_setter)(vg_config *cfg, int arg, const char *value, int line,
                                 vg_error *err);
@@ -1349,6 +1651,21 @@ static const key_def keys[] = {
     {SEC_OUTPUT, "font", set_font, 0},
     {SEC_OUTPUT, "contours", set_contours, 0},
     {SEC_OUTPUT, "mark", set_mark, 0},
+    {SEC_ISOTOPE, "frequency_ratio", set_iso_ratio, 0},
+    {SEC_ISOTOPE, "reduced_mass_ratio", set_iso_ratio, 1},
+    {SEC_ISOTOPE, "huang_rhys_rule", set_iso_rule, 0},
+    {SEC_FEASIBILITY, "require", set_require, 0},
+    {SEC_UNCERTAINTY, "gap", set_prior, VG_P_GAP},
+    {SEC_UNCERTAINTY, "reorganization", set_prior, VG_P_REORG},
+    {SEC_UNCERTAINTY, "electronic_coupling", set_prior, VG_P_COUPLING},
+    {SEC_UNCERTAINTY, "huang_rhys", set_prior, VG_P_HUANG_RHYS},
+    {SEC_UNCERTAINTY, "mode", set_prior, VG_P_MODE},
+    {SEC_UNCERTAINTY, "temperature", set_prior, VG_P_TEMPERATURE},
+    {SEC_UNCERTAINTY, "metric", set_unc_metric, 0},
+    {SEC_UNCERTAINTY, "samples", set_unc_number, 0},
+    {SEC_UNCERTAINTY, "seed", set_unc_number, 1},
+    {SEC_UNCERTAINTY, "bootstrap", set_unc_number, 2},
+    {SEC_UNCERTAINTY, "level", set_unc_number, 3},
 };
 
 #define N_KEYS (sizeof keys / sizeof keys[0])
@@ -1393,7 +1710,8 @@ static vg_status unknown_key(int sec, span name, vg_error *err)
                             "belongs in [%s])", show(name, &b), section_names[keys[home].section]);
     if (sec < 0)
         return vg_error_set(err, VG_ECONFIG, "key '%s' comes before any section header (start "
-                            "with [scenario], [parameters], [model] or [output])", show(name, &b));
+                            "with [scenario], [parameters], [model], [output], [isotope], "
+                            "[feasibility] or [uncertainty])", show(name, &b));
     if (home >= 0)
         return vg_error_set(err, VG_ECONFIG, "unknown key '%s' in [%s] (it belongs in [%s])",
                             show(name, &b), section_names[sec], section_names[keys[home].section]);
@@ -1581,7 +1899,7 @@ static int on_pair(void *user, const char *section, const char *name, const char
         st = vg_error_set(ld->err, VG_ECONFIG, "missing key before '='");
     else if (k < 0)
         st = unknown_key(sec, key, ld->err);
-    else if (ld->key_line[k] > 0 && keys[k].set != set_mark)
+    else if (ld->key_line[k] > 0 && keys[k].set != set_mark && keys[k].set != set_require)
         st = vg_error_set(ld->err, VG_ECONFIG, "duplicate key '%s' in [%s] (first set at line "
                           "%d)", name, section, ld->key_line[k]);
     else
@@ -1952,6 +2270,101 @@ static vg_status check_figures(loader *ld)
     return st;
 }
 
+/* ------------------------------------------------------------------ */
+/* Checks of [isotope], [feasibility] and [uncertainty] with the rest. */
+
+static int key_of(section_id sec, const char *name)
+{
+    return find_key((int)sec, span_of(name));
+}
+
+/* The heavy isotopologue must stay inside the accepted domain. */
+static vg_status check_isotope(loader *ld)
+{
+    vg_config *cfg = ld->cfg;
+    vg_isotope *iso = &cfg->isotope;
+    int fr = key_of(SEC_ISOTOPE, "frequency_ratio"), rm = key_of(SEC_ISOTOPE, "reduced_mass_ratio");
+    int rule = key_of(SEC_ISOTOPE, "huang_rhys_rule");
+    int given = ld->key_line[fr] ? fr : rm;
+    const vg_param *mode = &cfg->param[VG_P_MODE], *S = &cfg->param[VG_P_HUANG_RHYS];
+
+    if (!ld->section_line[SEC_ISOTOPE] && !ld->key_line[fr] && !ld->key_line[rm]
+        && !ld->key_line[rule])
+        return VG_OK;
+    iso->on = 1;
+    if (ld->key_line[fr] && ld->key_line[rm])
+        return locate(ld, rm, vg_error_set(ld->err, VG_ECONFIG, "give 'frequency_ratio' or "
+                                           "'reduced_mass_ratio' in [isotope], not both"));
+    if (!ld->key_line[fr] && !ld->key_line[rm])
+        return locate_line(ld, rule, ld->section_line[SEC_ISOTOPE] ? ld->section_line[SEC_ISOTOPE]
+                           : ld->key_line[rule], vg_error_set(ld->err, VG_ECONFIG, "[isotope] "
+                           "needs 'frequency_ratio' or 'reduced_mass_ratio'"));
+    for (size_t i = 0; i < mode->n; i++)
+        if (mode->v[i] / iso->frequency_ratio < params[VG_P_MODE].lo)
+            return locate(ld, given, vg_error_set(ld->err, VG_ECONFIG, "the heavy "
+                          "isotopologue's mode would be %g meV (mode %g meV / frequency ratio "
+                          "%g), below the accepted %g meV", mode->v[i] / iso->frequency_ratio,
+                          mode->v[i], iso->frequency_ratio, params[VG_P_MODE].lo));
+    for (size_t i = 0; iso->rule == VG_HR_BORN_OPPENHEIMER && i < S->n; i++)
+        if (S->v[i] * iso->frequency_ratio > params[VG_P_HUANG_RHYS].hi)
+            return locate(ld, given, vg_error_set(ld->err, VG_ECONFIG, "the heavy "
+                          "isotopologue's huang_rhys would be %g (%g x frequency ratio %g), "
+                          "above the accepted %g", S->v[i] * iso->frequency_ratio, S->v[i],
+                          iso->frequency_ratio, params[VG_P_HUANG_RHYS].hi));
+    return VG_OK;
+}
+
+const char *vg_config_metric_lacks(const vg_config *cfg, vg_metric_id m)
+{
+    int needs = vg_metric_get(m)->needs;
+
+    if ((needs & VG_NEEDS_ISOTOPE) && !cfg->isotope.on)
+        return "an [isotope] section";
+    if ((needs & VG_NEEDS_FEASIBILITY) && cfg->feasibility.n == 0)
+        return "'require' conditions in [feasibility]";
+    return NULL;
+}
+
+/* Metrics named in metrics, maps, require and [uncertainty] metric must be
+ * available; unnamed, the stored ones are every available metric. */
+static vg_status check_metric_needs(loader *ld)
+{
+    vg_config *cfg = ld->cfg;
+    int mk = key_of(SEC_OUTPUT, "metrics"), pk = key_of(SEC_OUTPUT, "maps");
+    int uk = key_of(SEC_UNCERTAINTY, "metric"), rk = key_of(SEC_FEASIBILITY, "require");
+    const char *why;
+
+    for (int m = 0; m < VG_N_METRICS; m++) {
+        why = vg_config_metric_lacks(cfg, (vg_metric_id)m);
+        if (!ld->key_line[mk])
+            cfg->metric_on[m] = why == NULL;
+        else if (cfg->metric_on[m] && why)
+            return locate(ld, mk, vg_error_set(ld->err, VG_ECONFIG, "'metrics' lists '%s', "
+                          "which needs %s", vg_metric_get((vg_metric_id)m)->name, why));
+    }
+    for (size_t i = 0; i < cfg->fig.nmaps; i++)
+        if ((why = vg_config_metric_lacks(cfg, cfg->fig.maps[i])) != NULL)
+            return locate(ld, pk, vg_error_set(ld->err, VG_ECONFIG, "'maps' lists '%s', which "
+                          "needs %s", vg_metric_get(cfg->fig.maps[i])->name, why));
+    for (size_t i = 0; i < cfg->feasibility.n; i++)
+        if ((why = vg_config_metric_lacks(cfg, cfg->feasibility.r[i].metric)) != NULL)
+            return locate_line(ld, rk, cfg->feasibility.r[i].line, vg_error_set(ld->err,
+                               VG_ECONFIG, "'require = %s' needs %s", cfg->feasibility.r[i].text,
+                               why));
+    if (cfg->feasibility.n > 0 && !(cfg->formats & VG_FMT_NETCDF))
+        return locate_line(ld, rk, cfg->feasibility.r[0].line, vg_error_set(ld->err,
+                           VG_ECONFIG, "[feasibility] needs 'netcdf' in 'data' (the window's "
+                           "summary is read back from sweep.nc)"));
+    if (cfg->feasibility.n > 0 && !cfg->metric_on[VG_M_FEASIBLE])
+        return locate(ld, mk, vg_error_set(ld->err, VG_ECONFIG, "[feasibility] needs "
+                                           "'feasible' in 'metrics' (the window's summary and "
+                                           "outline are read back from sweep.nc)"));
+    if (ld->key_line[uk] && (why = vg_config_metric_lacks(cfg, cfg->uncertainty.metric)) != NULL)
+        return locate(ld, uk, vg_error_set(ld->err, VG_ECONFIG, "'metric' '%s' needs %s",
+                      vg_metric_get(cfg->uncertainty.metric)->name, why));
+    return VG_OK;
+}
+
 static vg_status finish(loader *ld)
 {
     vg_status st = VG_OK;
@@ -1959,6 +2372,10 @@ static vg_status finish(loader *ld)
     for (int p = 0; st == VG_OK && p < VG_NPARAM; p++)
         if (ld->cfg->param[p].n == 0)
             st = use_default(ld, (vg_param_id)p);
+    if (st == VG_OK)
+        st = check_isotope(ld);
+    if (st == VG_OK)
+        st = check_metric_needs(ld);
     if (st == VG_OK)
         st = check_grid(ld);
     if (st == VG_OK)
@@ -2018,7 +2435,12 @@ static vg_status config_init(vg_config *cfg, const char *path, size_t nset,
     cfg->formats = VG_FMT_NETCDF | VG_FMT_CSV;
     cfg->max_bytes = CFG_MAX_BYTES_DEFAULT;
     for (int m = 0; m < VG_N_METRICS; m++)
-        cfg->metric_on[m] = 1;
+        cfg->metric_on[m] = vg_metric_get((vg_metric_id)m)->needs == 0;
+    cfg->uncertainty.metric = VG_M_LOG10_RATIO;
+    cfg->uncertainty.samples = 4096;
+    cfg->uncertainty.seed = 1;
+    cfg->uncertainty.bootstrap = 500;
+    cfg->uncertainty.level = 0.95;
     figure_init(&cfg->fig);
     if (!cfg->path || !cfg->title || !cfg->notes || !cfg->out_dir || (nset && !cfg->overrides))
         return no_memory(err);

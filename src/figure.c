@@ -58,6 +58,7 @@ typedef struct {
     vg_metric_id metric;
     const double *z;          /* metric over the grid */
     const double *ratio;      /* log10_ratio over the grid */
+    const double *feasible;   /* feasible over the grid, NULL without [feasibility] */
     axis_view ax, ay;
     size_t ncol, nrow;
     size_t fixed[VG_NPARAM];  /* coordinates of this figure's other axes */
@@ -85,7 +86,11 @@ static const char *metric_markup(vg_metric_id m)
         "log<sub>10</sub>(<i>k</i><sub>bare</sub> / s<sup>−1</sup>)",
         "log<sub>10</sub>(<i>k</i><sub>assisted</sub> / <i>k</i><sub>elastic</sub>)",
         "<i>k</i><sub>assisted</sub> / <i>k</i><sub>total</sub>",
-        "log<sub>10</sub>(<i>k</i><sub>total</sub> / <i>k</i><sub>bare</sub>)"};
+        "log<sub>10</sub>(<i>k</i><sub>total</sub> / <i>k</i><sub>bare</sub>)",
+        "log<sub>10</sub>(<i>k</i><sub>total, heavy</sub> / s<sup>−1</sup>)",
+        "<i>k</i><sub>light</sub> / <i>k</i><sub>heavy</sub>",
+        "log<sub>10</sub>(<i>k</i><sub>light</sub> / <i>k</i><sub>heavy</sub>)",
+        "feasible (1) or not (0)"};
     return s[m];
 }
 
@@ -370,8 +375,25 @@ static void contour_path(cairo_t *cr, const figure *f, const double *s, double l
 
 /* The dominance boundary: black over a white casing, legible on both
  * sides of the diverging map and in grayscale. */
+/* The dominance boundary is black over a white casing; the feasibility
+ * window's outline (feasible = 1/2 between cells) the inverse, white over
+ * black, so the two stay apart in colour and in grayscale (marching squares
+ * gives separate short segments, on which a dash pattern would restart). */
+/* The current path as a line of grey level core over a casing of grey level
+ * edge, widths in points. */
+static void stroke_cased(cairo_t *cr, double edge_w, double edge, double core_w, double core)
+{
+    cairo_set_dash(cr, NULL, 0, 0);
+    cairo_set_line_width(cr, edge_w);
+    cairo_set_source_rgb(cr, edge, edge, edge);
+    cairo_stroke_preserve(cr);
+    cairo_set_line_width(cr, core_w);
+    cairo_set_source_rgb(cr, core, core, core);
+    cairo_stroke(cr);
+}
+
 static void draw_lines(cairo_t *cr, const figure *f, const double *s, const double *ratio,
-                       vg_segment *seg, size_t cap, double x0, double y0)
+                       const double *feas, vg_segment *seg, size_t cap, double x0, double y0)
 {
     cairo_save(cr);
     cairo_rectangle(cr, x0, y0, f->pw, f->ph);
@@ -385,14 +407,12 @@ static void draw_lines(cairo_t *cr, const figure *f, const double *s, const doub
         cairo_set_source_rgb(cr, 0.15, 0.15, 0.15);
         cairo_stroke(cr);
     }
-    cairo_set_dash(cr, NULL, 0, 0);
     contour_path(cr, f, ratio, 0.0, seg, cap, x0, y0);
-    cairo_set_line_width(cr, 2.4);
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    cairo_stroke_preserve(cr);
-    cairo_set_line_width(cr, 1.1);
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_stroke(cr);
+    stroke_cased(cr, 2.4, 1.0, 1.1, 0.0);
+    if (feas) {
+        contour_path(cr, f, feas, 0.5, seg, cap, x0, y0);
+        stroke_cased(cr, 3.0, 0.0, 1.2, 1.0);
+    }
     cairo_restore(cr);
 }
 
@@ -504,11 +524,13 @@ static vg_status draw_panels(cairo_t *cr, const figure *f, vg_error *err)
 {
     size_t cells = f->ax.n * f->ay.n, cap = 2 * cells + 4;
     double *s = malloc(cells * sizeof *s), *q = malloc(cells * sizeof *q);
+    double *w = f->feasible ? malloc(cells * sizeof *w) : NULL;
     vg_segment *seg = malloc(cap * sizeof *seg);
 
-    if (!s || !q || !seg) {
+    if (!s || !q || !seg || (f->feasible && !w)) {
         free(s);
         free(q);
+        free(w);
         free(seg);
         return vg_error_set(err, VG_ENOMEM, "out of memory for a figure panel");
     }
@@ -518,17 +540,20 @@ static vg_status draw_panels(cairo_t *cr, const figure *f, vg_error *err)
             panel_origin(f, c, r, &x0, &y0);
             slice(f, f->z, c, r, s);
             slice(f, f->ratio, c, r, q);
+            if (w)
+                slice(f, f->feasible, c, r, w);
             if (f->ax.uniform && f->ay.uniform)
                 draw_cells_image(cr, f, s, x0, y0);
             else
                 draw_cells_rects(cr, f, s, x0, y0);
-            draw_lines(cr, f, s, q, seg, cap, x0, y0);
+            draw_lines(cr, f, s, q, w, seg, cap, x0, y0);
             draw_marks(cr, f, c, r, x0, y0);
             draw_axes(cr, f, c, r, x0, y0);
             panel_title(cr, f, c, r, x0, y0);
         }
     free(s);
     free(q);
+    free(w);
     free(seg);
     return VG_OK;
 }
@@ -672,8 +697,9 @@ static void titles(figure *f)
     }
     if (used < sizeof f->sub)
         snprintf(f->sub + used, sizeof f->sub - used,
-                 "\nblack line: <i>k</i><sub>assisted</sub> = <i>k</i><sub>elastic</sub>%s"
-                 ";  model prediction", f->fs->ncontours ? ";  dashed: extra levels" : "");
+                 "\nblack line: <i>k</i><sub>assisted</sub> = <i>k</i><sub>elastic</sub>%s%s"
+                 ";  model prediction", f->fs->ncontours ? ";  dashed: extra levels" : "",
+                 f->feasible ? ";  white line: feasibility window" : "");
 }
 
 /* ----------------------------------------------------------- per file --- */
@@ -776,6 +802,7 @@ static vg_status draw_metric(figure *f, const char *dir, const vg_figure_meta *m
 static void figure_free(figure *f)
 {
     free((double *)f->ratio);
+    free((double *)f->feasible);
     axis_free(&f->ax);
     axis_free(&f->ay);
 }
@@ -798,6 +825,11 @@ static vg_status figure_init(figure *f, const vg_dataset *ds, vg_error *err)
     if (st == VG_OK)
         st = read_metric(ds, VG_M_LOG10_RATIO, &ratio, err);
     f->ratio = ratio;
+    if (st == VG_OK && ds->cfg.feasibility.n > 0) {
+        double *feas = NULL;
+        st = read_metric(ds, VG_M_FEASIBLE, &feas, err);
+        f->feasible = feas;
+    }
     if (st != VG_OK)
         figure_free(f);
     return st;

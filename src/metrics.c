@@ -31,6 +31,17 @@ static const vg_metric_info metric_table[VG_N_METRICS] = {
                                 "fraction of the total rate carried by assisted channels"},
     [VG_M_LOG10_CONTRAST] = {"log10_contrast", "1",
                              "log10 of the ratio of total rate to bare Marcus rate"},
+    [VG_M_LOG10_K_TOTAL_HEAVY] = {"log10_k_total_heavy", "1",
+                                  "log10 of the total transfer rate with the heavy "
+                                  "isotopologue in s-1", VG_NEEDS_ISOTOPE},
+    [VG_M_ISOTOPE_EFFECT] = {"isotope_effect", "1",
+                             "isotope effect: total rate with the light over the heavy "
+                             "isotopologue", VG_NEEDS_ISOTOPE},
+    [VG_M_LOG10_ISOTOPE_EFFECT] = {"log10_isotope_effect", "1",
+                                   "log10 of the isotope effect", VG_NEEDS_ISOTOPE},
+    [VG_M_FEASIBLE] = {"feasible", "1",
+                       "1 where every feasibility condition holds, else 0",
+                       VG_NEEDS_FEASIBILITY},
 };
 
 const vg_metric_info *vg_metric_get(vg_metric_id id)
@@ -58,6 +69,12 @@ static double log10_or_fill(double ln_value, int zero)
 
 void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS])
 {
+    vg_metrics_compute(r, NULL, NULL, out);
+}
+
+/* The light metrics of r. */
+static void light_metrics(const vg_rates *r, double out[VG_N_METRICS])
+{
     int vz = r->coupling_zero;
     int sz = r->assisted_zero;
 
@@ -68,4 +85,56 @@ void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS])
     out[VG_M_LOG10_RATIO] = log10_or_fill(r->ln_fc_assisted - r->ln_fc_elastic, sz);
     out[VG_M_ASSISTED_FRACTION] = sz ? 0.0 : r->assisted_fraction;
     out[VG_M_LOG10_CONTRAST] = (r->ln_fc_total - r->ln_fc_bare) * VG_LOG10E;
+}
+
+/* Beyond this |log10| the linear isotope effect is not stored (it would
+ * leave the double range); log10_isotope_effect carries it. */
+#define ISOTOPE_LOG10_MAX 300.0
+
+static void heavy_metrics(const vg_rates *light, const vg_rates *heavy,
+                          double out[VG_N_METRICS])
+{
+    /* from the prefactor-free sums: the prefactor is the same for both
+     * isotopologues (it holds V, lambda and T only), and they stay defined
+     * at V = 0 */
+    double l10 = (light->ln_fc_total - heavy->ln_fc_total) * VG_LOG10E;
+
+    out[VG_M_LOG10_K_TOTAL_HEAVY] = log10_or_fill(heavy->ln_k_total, heavy->coupling_zero);
+    out[VG_M_LOG10_ISOTOPE_EFFECT] = l10;
+    out[VG_M_ISOTOPE_EFFECT] = fabs(l10) <= ISOTOPE_LOG10_MAX
+                               ? exp((light->ln_fc_total - heavy->ln_fc_total)) : VG_FILL;
+}
+
+/* A stored value as the comparisons see it: VG_FILL (a rate that is exactly
+ * zero, or a ratio with a zero numerator) is -infinity. */
+static double compared(double v)
+{
+    return v == VG_FILL ? -HUGE_VAL : v;
+}
+
+int vg_require_holds(const vg_require_set *req, const double m[VG_N_METRICS])
+{
+    for (size_t k = 0; req && k < req->n; k++) {
+        const vg_require *c = &req->r[k];
+        double v = compared(m[c->metric]);
+        int ok = c->op == VG_CMP_LT   ? v < c->value
+                 : c->op == VG_CMP_LE ? v <= c->value
+                 : c->op == VG_CMP_GT ? v > c->value
+                                      : v >= c->value;
+        if (!ok)
+            return 0;
+    }
+    return 1;
+}
+
+void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
+                        const vg_require_set *req, double out[VG_N_METRICS])
+{
+    light_metrics(light, out);
+    out[VG_M_LOG10_K_TOTAL_HEAVY] = out[VG_M_ISOTOPE_EFFECT] = VG_FILL;
+    out[VG_M_LOG10_ISOTOPE_EFFECT] = out[VG_M_FEASIBLE] = VG_FILL;
+    if (heavy)
+        heavy_metrics(light, heavy, out);
+    if (req && req->n > 0)
+        out[VG_M_FEASIBLE] = vg_require_holds(req, out) ? 1.0 : 0.0;
 }

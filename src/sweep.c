@@ -19,6 +19,7 @@
 #include <omp.h>
 #endif
 
+#include "vg_evaluate.h"
 #include "vg_metrics.h"
 #include "vg_sweep.h"
 
@@ -28,15 +29,20 @@
 /* Extra channels beyond the ones whose centre the grid reaches. */
 #define TABLE_MARGIN 64
 
+/* One isotopologue's kernel records and caches. */
 typedef struct {
     vg_rate_mode mode;
     vg_rate_row row;
-    size_t key;            /* index of the (S, mode, T) triple, or SIZE_MAX */
-    size_t row_key;        /* index of the (S, mode, T, V, lambda) row, or SIZE_MAX */
     double *tab;
     unsigned char *set;
     double *q, *qi;        /* the row's step cache, over the same channels */
     unsigned *qgen;
+} track;
+
+typedef struct {
+    track t[2];            /* light, heavy ([isotope] only) */
+    size_t key;            /* index of the (S, mode, T) triple, or SIZE_MAX */
+    size_t row_key;        /* index of the (S, mode, T, V, lambda) row, or SIZE_MAX */
     vg_status status;      /* first failure of this thread */
     size_t fail_at;        /* its flat index */
     vg_error err;
@@ -79,25 +85,38 @@ static void table_range(const reach *r, double S, double mode, long *lo, size_t 
     *len = (size_t)n;
 }
 
-static vg_status worker_mode(worker *w, const vg_grid *g, const reach *r,
-                             const double v[VG_NPARAM], size_t key)
+static vg_status track_mode(track *t, const vg_grid *g, const reach *r, double S,
+                            double mode, double T, vg_error *err)
 {
     long lo;
     size_t len;
-    vg_status st;
+    vg_status st = vg_rate_mode_init(&t->mode, g->cfg->stats, S, mode, T, err);
 
-    if (w->key == key)
-        return VG_OK;
-    st = vg_rate_mode_init(&w->mode, g->cfg->stats, v[VG_P_HUANG_RHYS],
-                           v[VG_P_MODE], v[VG_P_TEMPERATURE], &w->err);
     if (st != VG_OK)
         return st;
-    table_range(r, v[VG_P_HUANG_RHYS], v[VG_P_MODE], &lo, &len);
-    vg_rate_mode_attach_table(&w->mode, lo, len, w->tab, w->set);
-    vg_rate_row_attach(&w->row, lo, len, w->q, w->qi, w->qgen);
-    w->key = key;
-    w->row_key = SIZE_MAX;
+    table_range(r, S, mode, &lo, &len);
+    vg_rate_mode_attach_table(&t->mode, lo, len, t->tab, t->set);
+    vg_rate_row_attach(&t->row, lo, len, t->q, t->qi, t->qgen);
     return VG_OK;
+}
+
+static vg_status worker_mode(worker *w, const vg_grid *g, const reach *r,
+                             const double v[VG_NPARAM], size_t key)
+{
+    const vg_isotope *iso = &g->cfg->isotope;
+    vg_status st = track_mode(&w->t[0], g, r, v[VG_P_HUANG_RHYS], v[VG_P_MODE],
+                              v[VG_P_TEMPERATURE], &w->err);
+
+    if (st == VG_OK && iso->on) {
+        double S_h, mode_h;
+        vg_isotope_heavy(iso, v[VG_P_HUANG_RHYS], v[VG_P_MODE], &S_h, &mode_h);
+        st = track_mode(&w->t[1], g, r, S_h, mode_h, v[VG_P_TEMPERATURE], &w->err);
+        if (st != VG_OK)
+            vg_error_prefix(&w->err, "heavy isotopologue: ");
+    }
+    w->key = st == VG_OK ? key : SIZE_MAX;
+    w->row_key = SIZE_MAX;
+    return st;
 }
 
 /* A block of consecutive points walked with an odometer over the axes, so
@@ -165,6 +184,7 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
     size_t row_key = (key * cfg->param[VG_P_COUPLING].n + idx[VG_P_COUPLING])
                      * cfg->param[VG_P_REORG].n + idx[VG_P_REORG];
     vg_status st = VG_OK;
+    int niso = cfg->isotope.on ? 2 : 1;
 
     if (w->key != key) {
         double v[VG_NPARAM];
@@ -172,22 +192,23 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
             v[p] = cfg->param[p].v[idx[p]];
         st = worker_mode(w, g, r, v, key);
     }
-    if (st == VG_OK && w->row_key != row_key) {
-        st = vg_rate_row_begin(&w->row, &w->mode, cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
+    for (int k = 0; k < niso && st == VG_OK && w->row_key != row_key; k++)
+        st = vg_rate_row_begin(&w->t[k].row, &w->t[k].mode,
+                               cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
                                cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]], &w->err);
-        w->row_key = st == VG_OK ? row_key : SIZE_MAX;
-    }
+    w->row_key = st == VG_OK ? row_key : SIZE_MAX;
     for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
-        vg_rates rates;
-        if (st == VG_OK)
-            st = vg_rate_eval_row(&w->mode, &w->row, gap[j], cfg->tolerance, &rates, &w->err);
+        vg_rates rates[2];
+        for (int k = 0; k < niso && st == VG_OK; k++)
+            st = vg_rate_eval_row(&w->t[k].mode, &w->t[k].row, gap[j], cfg->tolerance,
+                                  &rates[k], &w->err);
         if (st != VG_OK) { /* the sweep stops at this chunk: fill the rest */
             for (; j < n; j++, out += VG_N_METRICS)
                 fail(w, st, flat + j, out);
             w->row_key = SIZE_MAX;
             return;
         }
-        vg_metrics_from_rates(&rates, out);
+        vg_metrics_compute(&rates[0], niso > 1 ? &rates[1] : NULL, &cfg->feasibility, out);
     }
 }
 
@@ -273,11 +294,13 @@ static void workers_free(worker *ws, int nthreads)
     if (!ws)
         return;
     for (int t = 0; t < nthreads; t++) {
-        free(ws[t].tab);
-        free(ws[t].set);
-        free(ws[t].q);
-        free(ws[t].qi);
-        free(ws[t].qgen);
+        for (int k = 0; k < 2; k++) {
+            free(ws[t].t[k].tab);
+            free(ws[t].t[k].set);
+            free(ws[t].t[k].q);
+            free(ws[t].t[k].qi);
+            free(ws[t].t[k].qgen);
+        }
     }
     free(ws);
 }
@@ -289,13 +312,18 @@ static worker *workers_alloc(int nthreads)
     if (!ws)
         return NULL;
     for (int t = 0; t < nthreads; t++) {
+        int ok = 1;
         ws[t].key = ws[t].row_key = SIZE_MAX;
-        ws[t].tab = malloc(TABLE_MAX * sizeof *ws[t].tab);
-        ws[t].set = malloc(TABLE_MAX);
-        ws[t].q = malloc(TABLE_MAX * sizeof *ws[t].q);
-        ws[t].qi = malloc(TABLE_MAX * sizeof *ws[t].qi);
-        ws[t].qgen = malloc(TABLE_MAX * sizeof *ws[t].qgen);
-        if (!ws[t].tab || !ws[t].set || !ws[t].q || !ws[t].qi || !ws[t].qgen) {
+        for (int k = 0; k < 2; k++) {
+            track *tr = &ws[t].t[k];
+            tr->tab = malloc(TABLE_MAX * sizeof *tr->tab);
+            tr->set = malloc(TABLE_MAX);
+            tr->q = malloc(TABLE_MAX * sizeof *tr->q);
+            tr->qi = malloc(TABLE_MAX * sizeof *tr->qi);
+            tr->qgen = malloc(TABLE_MAX * sizeof *tr->qgen);
+            ok = ok && tr->tab && tr->set && tr->q && tr->qi && tr->qgen;
+        }
+        if (!ok) {
             workers_free(ws, nthreads);
             return NULL;
         }

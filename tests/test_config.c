@@ -549,8 +549,10 @@ static void test_defaults(void **state)
     assert_true(cfg.tolerance == 1e-12);
     assert_string_equal(cfg.out_dir, "vibrogate-out");
     assert_int_equal(cfg.formats, VG_FMT_NETCDF | VG_FMT_CSV);
+    /* docs/config.md: by default every metric the config can compute; the
+     * isotope and feasibility metrics need their sections */
     for (int m = 0; m < VG_N_METRICS; m++)
-        assert_int_equal(cfg.metric_on[m], 1);
+        assert_int_equal(cfg.metric_on[m], m <= VG_M_LOG10_CONTRAST);
     assert_true(cfg.max_bytes == 4294967296.0); /* 4 GiB = 2^32 bytes */
     vg_config_free(&cfg);
 }
@@ -680,12 +682,14 @@ static void test_file_errors(void **state)
         {"gap = 1 meV\n", "@FILE@:1: key 'gap' comes before any section header (it belongs "
                           "in [parameters])"},
         {"q = 1\n", "@FILE@:1: key 'q' comes before any section header (start with "
-                    "[scenario], [parameters], [model] or [output])"},
+                    "[scenario], [parameters], [model], [output], [isotope], [feasibility] "
+                    "or [uncertainty])"},
         {"[paramters]\n", "@FILE@:1: unknown section '[paramters]' (did you mean "
                           "'[parameters]'?)"},
         {"[Output]\n", "@FILE@:1: unknown section '[Output]' (did you mean '[output]'?)"},
         {"[parameters]\n[results]\n", "@FILE@:2: unknown section '[results]' (allowed: "
-                                      "[scenario], [parameters], [model], [output])"},
+                                      "[scenario], [parameters], [model], [output], "
+                                      "[isotope], [feasibility], [uncertainty])"},
         {"[ parameters ]\n", "@FILE@:1: unknown section '[ parameters ]' (did you mean "
                              "'[parameters]'?)"},
         {"[parameters\n", "@FILE@:1: section header '[parameters' has no closing ']'"},
@@ -741,7 +745,8 @@ static void test_file_errors(void **state)
                                                "'metrics' (did you mean 'log10_k_total'?)"},
         {"[output]\nmetrics = speed\n", "@FILE@:2: unknown metric 'speed' in 'metrics' "
          "(allowed: log10_k_elastic, log10_k_assisted, log10_k_total, log10_k_bare, "
-         "log10_ratio, assisted_fraction, log10_contrast)"},
+         "log10_ratio, assisted_fraction, log10_contrast, log10_k_total_heavy, "
+         "isotope_effect, log10_isotope_effect, feasible)"},
         {"[output]\nmax_size = 500\n", "@FILE@:2: 'max_size' needs a unit: bytes, B, kB, MB, "
                                        "GB, TB, KiB, MiB, GiB or TiB (got '500')"},
         {"[output]\nmax_size = 5 PB\n", "@FILE@:2: unknown unit 'PB' for 'max_size' "
@@ -795,7 +800,8 @@ static void test_first_mistake(void **state)
         {"[parameters]\ngap = 250\n[bogus]\n", "@FILE@:2: 'gap' needs a unit: meV, eV, cm-1, "
                                                "cm^-1, kJ/mol or kcal/mol (got '250')"},
         {"[bogus]\n[parameters]\ngap = 250\n", "@FILE@:1: unknown section '[bogus]' (allowed: "
-                                               "[scenario], [parameters], [model], [output])"},
+                                               "[scenario], [parameters], [model], [output], "
+                                               "[isotope], [feasibility], [uncertainty])"},
         {"[parameters]\ngap = 1 meV\n[output]\nmax_size = 1 kB\ndata = xml\n",
          "@FILE@:5: unknown data format 'xml' in 'data' (allowed: netcdf, csv)"},
         {"[parameters]\ngap = 1 meV\n[scenario]\ntitle = \xFF\n", "@FILE@:4: invalid UTF-8 at "
@@ -1044,9 +1050,9 @@ static void test_figure_values(void **state)
              "contours = none\nfont = Times\n", all_maps);
     load_text(&cfg, text, 0, NULL, VG_OK, &err);
     assert_int_equal(cfg.fig.formats, VG_FIG_PNG | VG_FIG_PDF | VG_FIG_SVG);
-    assert_int_equal(cfg.fig.nmaps, VG_N_METRICS);
-    for (int m = 0; m < VG_N_METRICS; m++)
-        assert_int_equal(cfg.fig.maps[m], VG_N_METRICS - 1 - m);
+    assert_int_equal(cfg.fig.nmaps, VG_M_LOG10_CONTRAST + 1); /* the seven listed */
+    for (int m = 0; m <= VG_M_LOG10_CONTRAST; m++)
+        assert_int_equal(cfg.fig.maps[m], VG_M_LOG10_CONTRAST - m);
     assert_true(cfg.fig.dpi == 50.0);
     assert_int_equal(cfg.fig.ncontours, 0);
     vg_config_free(&cfg);
@@ -1180,13 +1186,15 @@ static void test_figure_errors(void **state)
                                  "'log10_ratio'?)"},
         {"maps = rate\n", "9: unknown metric 'rate' in 'maps' (allowed: log10_k_elastic, "
                           "log10_k_assisted, log10_k_total, log10_k_bare, log10_ratio, "
-                          "assisted_fraction, log10_contrast)"},
+                          "assisted_fraction, log10_contrast, log10_k_total_heavy, "
+                          "isotope_effect, log10_isotope_effect, feasible)"},
         {"maps = log10_ratio, log10_k_total, log10_ratio\n", "9: metric 'log10_ratio' appears "
                                                              "twice in 'maps'"},
         {"maps = log10_ratio,\n", "9: empty item in the list of 'maps' (allowed: "
                                   "log10_k_elastic, log10_k_assisted, log10_k_total, "
                                   "log10_k_bare, log10_ratio, assisted_fraction, "
-                                  "log10_contrast)"},
+                                  "log10_contrast, log10_k_total_heavy, isotope_effect, "
+                                  "log10_isotope_effect, feasible)"},
         {"x = temp\n", "9: unknown parameter 'temp' in 'x' (did you mean 'temperature'?)"},
         {"x = voltage\n", "9: unknown parameter 'voltage' in 'x' (allowed: gap, "
                           "reorganization, electronic_coupling, huang_rhys, mode, "

@@ -1,0 +1,41 @@
+/*
+ * One parameter set through the whole model: the light odorant's rates, the
+ * heavy isotopologue's (when [isotope] is given), and every metric including
+ * feasible (when [feasibility] is given).  The single entry point for
+ * everything that evaluates points outside the sweep's rows: the point,
+ * sensitivity and uncertainty commands and the probability map.
+ *
+ * Pure: no I/O, no allocation, no static state.
+ */
+#ifndef VG_EVALUATE_H
+#define VG_EVALUATE_H
+
+#include "vg_config.h"
+
+typedef struct {
+    vg_rate_mode light_mode, heavy_mode;
+    vg_rates light, heavy;         /* heavy: only when cfg->isotope.on */
+    double metric[VG_N_METRICS];   /* VG_FILL where a metric is not configured */
+} vg_eval_result;
+
+/* Evaluate the parameter set v (canonical units) with cfg's model settings
+ * (mode statistics, tolerance, isotope, feasibility).  VG_ENUMERIC with a
+ * message for values outside the kernel's domain. */
+vg_status vg_evaluate(const vg_config *cfg, const double v[VG_NPARAM], vg_eval_result *res,
+                      vg_error *err);
+
+/* The heavy isotopologue's Huang-Rhys factor and mode quantum for the light
+ * ones under iso's rule: hbar omega_heavy = hbar omega / ratio and, under
+ * the Born-Oppenheimer rule, S_heavy = S ratio (lambda_v = S hbar omega
+ * unchanged; docs/theory.md). */
+void vg_isotope_heavy(const vg_isotope *iso, double S, double mode_meV, double *S_heavy,
+                      double *mode_heavy_meV);
+
+/* Reduced mass m1 m2 / (m1 + m2) (any mass unit). */
+double vg_reduced_mass(double m1, double m2);
+
+/* omega_light / omega_heavy of a harmonic oscillator from the reduced-mass
+ * ratio mu_heavy / mu_light (> 0): sqrt(mu_heavy / mu_light). */
+double vg_isotope_frequency_ratio(double reduced_mass_ratio);
+
+#endif
