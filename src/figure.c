@@ -234,6 +234,13 @@ static double nice_up(double x)
     return (m <= 1.0 ? 1.0 : m <= 2.0 ? 2.0 : m <= 5.0 ? 5.0 : 10.0) * p;
 }
 
+/* Metrics with a natural zero between two regimes (assisted against
+ * elastic, light against heavy) take the diverging map, centred on 0. */
+static int diverging_metric(vg_metric_id m)
+{
+    return m == VG_M_LOG10_RATIO || m == VG_M_LOG10_ISOTOPE_EFFECT;
+}
+
 /* The colour range: the central 98 % of the figure's values rounded out
  * to round numbers; for the ratio, symmetric about 0 and set by the 80th
  * percentile of |log10 ratio|, so that the decades around the boundary keep
@@ -265,7 +272,7 @@ static vg_status colour_range(figure *f, vg_error *err)
         f->hi = nice_up(hi > 0 ? hi : 1.0);
         f->lo = -f->hi;
         f->clamp_hi = f->clamp_lo = n && v[n - 1] > f->hi;
-    } else if (f->metric == VG_M_ASSISTED_FRACTION) {
+    } else if (f->metric == VG_M_ASSISTED_FRACTION || f->metric == VG_M_FEASIBLE) {
         f->lo = 0.0;
         f->hi = 1.0;
     } else {
@@ -785,7 +792,7 @@ static vg_status draw_metric(figure *f, const char *dir, const vg_figure_meta *m
     vg_status st;
 
     memset(f->fixed, 0, sizeof f->fixed);
-    f->diverging = f->metric == VG_M_LOG10_RATIO;
+    f->diverging = diverging_metric(f->metric);
     st = vg_cmap_build(&f->cmap, f->diverging ? VG_CMAP_DIVERGING : VG_CMAP_SEQUENTIAL, err);
     do {
         if (st == VG_OK)
@@ -867,7 +874,7 @@ vg_status vg_figure_geometry(const vg_dataset *ds, vg_metric_id m, const size_t 
     if (st != VG_OK)
         return st;
     f.metric = m;
-    f.diverging = m == VG_M_LOG10_RATIO;
+    f.diverging = diverging_metric(m);
     for (int p = 0; p < VG_NPARAM; p++)
         f.fixed[p] = fixed[p];
     f.fixed[f.ax.p] = f.fixed[f.ay.p] = 0;

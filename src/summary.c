@@ -105,12 +105,25 @@ static void json_summary(text *t, const vg_dataset *ds, const vg_window *w)
            "units, the grid's outside counting as edge\"\n}\n");
 }
 
+/* " meV", " K", or nothing for a dimensionless parameter. */
+static const char *unit_suffix(vg_param_id p, char *buf, size_t len)
+{
+    const char *u = vg_param_get(p)->unit;
+
+    snprintf(buf, len, "%s%s", strcmp(u, "1") ? " " : "", strcmp(u, "1") ? u : "");
+    return buf;
+}
+
 static void text_summary(text *t, const vg_dataset *ds, const vg_window *w)
 {
     const vg_config *cfg = &ds->cfg;
     const vg_grid *g = &ds->grid;
+    char u[16];
 
-    put(t, "feasibility window of %s\n\nconditions (all must hold):\n", cfg->path);
+    put(t, "feasibility window of the sweep in %s\n", ds->path);
+    if (cfg->title[0])
+        put(t, "%s\n", cfg->title);
+    put(t, "\nconditions (all must hold):\n");
     for (size_t i = 0; i < cfg->feasibility.n; i++)
         put(t, "  %s\n", cfg->feasibility.r[i].text);
     put(t, "\nfeasible: %zu of %zu grid points (%.4g %%)\n\n", w->feasible, w->points,
@@ -119,8 +132,8 @@ static void text_summary(text *t, const vg_dataset *ds, const vg_window *w)
     for (size_t a = 0; a < g->naxes; a++) {
         vg_param_id p = g->axis[a];
         const vg_param *q = &cfg->param[p];
-        put(t, "  %-20s %12.6g .. %-12.6g %s", vg_param_get(p)->key, q->v[0], q->v[q->n - 1],
-            vg_param_get(p)->unit);
+        put(t, "  %-20s %12.6g .. %-12.6g%-5s", vg_param_get(p)->key, q->v[0], q->v[q->n - 1],
+            unit_suffix(p, u, sizeof u));
         if (w->feasible)
             put(t, "   feasible %.6g .. %.6g\n", q->v[w->lo[p]], q->v[w->hi[p]]);
         else
@@ -130,9 +143,9 @@ static void text_summary(text *t, const vg_dataset *ds, const vg_window *w)
         put(t, "\nmost robust point (farthest from the window's edge, %.4g in axis units "
                "scaled to each range):\n", w->distance);
         for (int p = 0; p < VG_NPARAM; p++)
-            put(t, "  %-20s %.10g %s\n", vg_param_get((vg_param_id)p)->key,
+            put(t, "  %-20s %.10g%s\n", vg_param_get((vg_param_id)p)->key,
                 cfg->param[p].v[vg_grid_coord(g, w->robust, (vg_param_id)p)],
-                vg_param_get((vg_param_id)p)->unit);
+                unit_suffix((vg_param_id)p, u, sizeof u));
     } else {
         put(t, "\nmost robust point: %s\n",
             w->feasible ? "not computed (grid larger than the distance transform's limit)"
