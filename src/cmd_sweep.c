@@ -8,6 +8,8 @@
  * can finish the run with the same files an uninterrupted run writes.
  */
 #define _POSIX_C_SOURCE 200809L
+#include <ctype.h>
+#include <dirent.h>
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -95,28 +97,68 @@ static vg_status open_all(writer_set *ws, const vg_config *cfg, const char *dir,
     return VG_OK;
 }
 
+/* A final name that a rename cannot replace (a directory, a device...):
+ * refused before any rename, so that no output is replaced while another
+ * one then fails. */
+static vg_status check_final(const char *path, vg_error *err)
+{
+    struct stat sb;
+
+    if (lstat(path, &sb) != 0 || S_ISREG(sb.st_mode) || S_ISLNK(sb.st_mode))
+        return VG_OK;
+    return vg_error_set(err, VG_EIO, "cannot write '%s': %s", path,
+                        S_ISDIR(sb.st_mode) ? "is a directory" : "is not a regular file");
+}
+
+/* The earlier file at a final name, kept under a hidden name by a hard
+ * link until every rename has succeeded ("" when there was none). */
+static void keep_earlier(const char *path, char *kept, size_t len)
+{
+    const char *slash = strrchr(path, '/');
+    size_t dlen = slash ? (size_t)(slash - path) + 1 : 0;
+
+    snprintf(kept, len, "%.*s.%s.earlier", (int)dlen, path, path + dlen);
+    unlink(kept);
+    if (link(path, kept) != 0)
+        kept[0] = '\0';
+}
+
 /* Finish every file first, so that a failure leaves no new final name
- * beside an old one; then rename them all. */
+ * beside an old one; then rename them all.  Should a rename fail after an
+ * earlier one succeeded, the earlier outputs are put back. */
 static vg_status commit_all(writer_set *ws, int quiet, vg_error *err)
 {
+    char path[MAX_WRITERS][4096], kept[MAX_WRITERS][4200];
+    size_t i, done = 0;
     vg_status st = VG_OK;
 
-    for (size_t i = 0; i < ws->n && st == VG_OK; i++)
+    for (i = 0; i < ws->n && st == VG_OK; i++)
         st = vg_out_finish(ws->w[i], err);
+    for (i = 0; i < ws->n && st == VG_OK; i++)
+        st = check_final(vg_out_path(ws->w[i]), err);
     if (st != VG_OK) {
         abort_all(ws);
         return st;
     }
-    for (size_t i = 0; i < ws->n; i++) {
-        char path[4096];
-        snprintf(path, sizeof path, "%s", vg_out_path(ws->w[i]));
+    for (i = 0; i < ws->n; i++) {
+        snprintf(path[i], sizeof path[i], "%s", vg_out_path(ws->w[i]));
+        keep_earlier(path[i], kept[i], sizeof kept[i]);
+    }
+    for (i = 0; i < ws->n; i++) {
         if (st != VG_OK) {
             vg_out_abort(ws->w[i]);
             continue;
         }
         st = vg_out_commit(ws->w[i], err);
+        done += st == VG_OK;
+    }
+    for (i = 0; i < ws->n; i++) {
+        if (st != VG_OK && i < done) /* put the earlier file back, or remove the new one */
+            (void)(kept[i][0] ? rename(kept[i], path[i]) : unlink(path[i]));
+        else if (kept[i][0])
+            unlink(kept[i]);
         if (st == VG_OK && !quiet)
-            fprintf(stderr, "vibrogate: wrote %s\n", path);
+            fprintf(stderr, "vibrogate: wrote %s\n", path[i]);
     }
     ws->n = 0;
     return st;
@@ -219,6 +261,47 @@ static vg_status stopped(const vg_cmd_args *a, const vg_grid *g, vg_ckpt *ck, vg
 
 /* Open the checkpoint for this run; a resumed run also takes the config
  * path the run was started with, so that its metadata match. */
+/* 1 if name is one of the data writers' temporaries (".sweep.nc.XXXXXX",
+ * mkstemp's six characters) or a kept earlier output (".sweep.csv.earlier"). */
+static int run_leftover(const char *name)
+{
+    static const char *const stems[] = {".sweep.nc.", ".sweep.csv."};
+
+    for (size_t k = 0; k < 2; k++) {
+        size_t n = strlen(stems[k]);
+        if (strncmp(name, stems[k], n) != 0)
+            continue;
+        if (strcmp(name + n, "earlier") == 0)
+            return 1;
+        if (strlen(name + n) != 6)
+            return 0;
+        for (const char *c = name + n; *c; c++)
+            if (!isalnum((unsigned char)*c))
+                return 0;
+        return 1;
+    }
+    return 0;
+}
+
+/* On --resume: a run killed between creating a temporary file and noting
+ * it in the checkpoint (or while renaming) left it behind; the run owns
+ * the directory, so such leftovers are removed. */
+static void remove_leftovers(const char *dir)
+{
+    DIR *d = opendir(dir);
+    struct dirent *e;
+
+    if (!d)
+        return;
+    while ((e = readdir(d)) != NULL)
+        if (run_leftover(e->d_name)) {
+            char path[4400];
+            snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
+            unlink(path);
+        }
+    closedir(d);
+}
+
 static vg_status open_checkpoint(const vg_cmd_args *a, vg_config *cfg, const vg_grid *g,
                                  const char *dir, size_t chunk, vg_ckpt **ck, vg_error *err)
 {
@@ -228,6 +311,8 @@ static vg_status open_checkpoint(const vg_cmd_args *a, vg_config *cfg, const vg_
     vg_status st = vg_ckpt_open(ck, &rq, &in, err);
     char *path;
 
+    if (st == VG_OK && a->resume)
+        remove_leftovers(dir);
     if (st != VG_OK || strcmp(vg_ckpt_config_path(*ck), cfg->path) == 0)
         return st;
     path = strdup(vg_ckpt_config_path(*ck));

@@ -906,7 +906,10 @@ static vg_status set_max_size(vg_config *cfg, int arg, const char *value, int li
     (void)line;
     if (st != VG_OK)
         return st;
-    if (!(x >= 1.0) || !isfinite(x))
+    if (!isfinite(x))
+        return vg_error_set(err, VG_ECONFIG, "'max_size' is beyond the range of double "
+                            "precision in bytes (got '%s')", show(span_of(value), &b));
+    if (!(x >= 1.0))
         return vg_error_set(err, VG_ECONFIG, "'max_size' must be at least 1 byte (got '%s')",
                             show(span_of(value), &b));
     cfg->max_bytes = x;

@@ -475,8 +475,11 @@ static void nc_discard(vg_writer *w)
     if (!s)
         return;
     /* nc_abort releases the file without writing out what is pending; the
-     * file is removed next, so its status is moot. */
-    if (s->open)
+     * file is removed next, so its status is moot.  After any failed call
+     * (a full disk, above all) HDF5's state can be half torn down and
+     * nc_abort may crash in it: the handle is then left alone, a leak that
+     * lasts only until the process exits with the error. */
+    if (s->open && s->rc == NC_NOERR)
         (void)nc_abort(s->ncid);
     free(s->col);
     free(s);
