@@ -137,6 +137,11 @@ vg_status vg_config_load_text(vg_config *cfg, const char *name, const char *text
 
 void vg_config_free(vg_config *cfg);
 
+/* VG_ECONFIG "FILE: 'COMMAND' needs every parameter scalar; ..." unless
+ * every parameter (but gap when but_gap is set) has a single value. */
+vg_status vg_config_require_scalars(const vg_config *cfg, const char *command, int but_gap,
+                                    vg_error *err);
+
 /* What metric m needs that cfg lacks ("an [isotope] section", ...), or
  * NULL when cfg can compute it. */
 const char *vg_config_metric_lacks(const vg_config *cfg, vg_metric_id m);

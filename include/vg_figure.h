@@ -12,6 +12,7 @@
 #define VG_FIGURE_H
 
 #include "vg_dataset.h"
+#include "vg_grid.h"
 #include "vg_status.h"
 
 typedef struct {
@@ -27,6 +28,23 @@ typedef struct {
  * sort).  Each file is written under a temporary name and renamed. */
 vg_status vg_figure_maps(const vg_dataset *ds, const char *dir, const vg_figure_meta *meta,
                          vg_error *err);
+
+/* A quantity over the grid that is not a sweep metric (the probability map
+ * of the uncertainty command), for vg_figure_field. */
+typedef struct {
+    const char *name;          /* file name part: DIR/map-NAME.EXT */
+    const char *label_markup;  /* Pango markup for the colour bar and subtitle */
+    const char *note;          /* second subtitle line (markup), or NULL */
+    double lo, hi;             /* fixed colour range (sequential map) */
+} vg_field_spec;
+
+/* Draw field (g->npoints values in flat order, VG_FILL where undefined)
+ * as a map of cfg's grid with cfg's figure settings (formats, x, y,
+ * panels, rows, size, marks), without the dominance boundary or the
+ * window outline.  Written like vg_figure_maps' files. */
+vg_status vg_figure_field(const vg_config *cfg, const vg_grid *g, const double *field,
+                          const vg_field_spec *spec, const char *dir,
+                          const vg_figure_meta *meta, vg_error *err);
 
 /* Where a figure puts things, for tests and for anyone overlaying their own
  * drawing: page size and panel rectangles in points (origin top left;

@@ -26,18 +26,6 @@ typedef struct {
     vg_eval_result ev;
 } point_result;
 
-static vg_status require_scalars(const vg_config *cfg, vg_error *err)
-{
-    for (int p = 0; p < VG_NPARAM; p++)
-        if (cfg->param[p].n > 1)
-            return vg_error_set(err, VG_ECONFIG,
-                                "%s: 'point' needs every parameter scalar; '%s' has %zu values "
-                                "(fix it with --set 'parameters.%s=VALUE')",
-                                cfg->path, vg_param_get((vg_param_id)p)->key,
-                                cfg->param[p].n, vg_param_get((vg_param_id)p)->key);
-    return VG_OK;
-}
-
 static vg_status compute(const vg_config *cfg, point_result *pr, vg_error *err)
 {
     vg_status st;
@@ -150,7 +138,9 @@ static void print_json(const vg_config *cfg, point_result *pr)
 {
     int first = 1;
 
-    printf("{\n  \"config\": \"%s\",\n  \"parameters\": {", cfg->path);
+    printf("{\n  \"config\": ");
+    vg_fmt_json_string(stdout, cfg->path);
+    printf(",\n  \"parameters\": {");
     for (int p = 0; p < VG_NPARAM; p++) {
         printf("%s\"%s\": ", p ? ", " : "", vg_param_get((vg_param_id)p)->csv_column);
         json_number(pr->v[p]);
@@ -186,7 +176,7 @@ vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err)
 
     if (st != VG_OK)
         return st;
-    st = require_scalars(&cfg, err);
+    st = vg_config_require_scalars(&cfg, "point", 0, err);
     if (st == VG_OK)
         st = compute(&cfg, &pr, err);
     if (st == VG_OK) {

@@ -45,13 +45,10 @@ typedef struct {
 
 static vg_status need_scalars(const vg_config *cfg, vg_error *err)
 {
-    for (int p = VG_P_REORG; p < VG_NPARAM; p++)
-        if (cfg->param[p].n > 1)
-            return vg_error_set(err, VG_ECONFIG,
-                                "%s: 'spectrum' needs every parameter but 'gap' scalar; '%s' has "
-                                "%zu values (fix it with --set 'parameters.%s=VALUE')",
-                                cfg->path, vg_param_get((vg_param_id)p)->key, cfg->param[p].n,
-                                vg_param_get((vg_param_id)p)->key);
+    vg_status st = vg_config_require_scalars(cfg, "spectrum", 1, err);
+
+    if (st != VG_OK)
+        return st;
     if (cfg->param[VG_P_COUPLING].v[0] == 0.0)
         return vg_error_set(err, VG_ECONFIG, "%s: 'spectrum' needs 'electronic_coupling' > 0 "
                             "(every rate is zero at 0 meV)", cfg->path);

@@ -2368,6 +2368,22 @@ static vg_status check_metric_needs(loader *ld)
     return VG_OK;
 }
 
+/* The bootstrap needs enough resamples for its percentiles at level: at
+ * least 2 / (1 - level) (so that each tail holds one). */
+static vg_status check_uncertainty(loader *ld)
+{
+    const vg_uncertainty *u = &ld->cfg->uncertainty;
+    int bk = key_of(SEC_UNCERTAINTY, "bootstrap"), lk = key_of(SEC_UNCERTAINTY, "level");
+    double need = ceil(2.0 / (1.0 - u->level) - 1e-9);
+
+    if ((double)u->bootstrap >= need)
+        return VG_OK;
+    return locate(ld, ld->key_line[bk] ? bk : lk, vg_error_set(ld->err, VG_ECONFIG,
+                  "'bootstrap' must be at least %.0f at level %g (2 / (1 - level), so that "
+                  "each tail of the interval holds a resample; got %zu)", need, u->level,
+                  u->bootstrap));
+}
+
 static vg_status finish(loader *ld)
 {
     vg_status st = VG_OK;
@@ -2379,6 +2395,8 @@ static vg_status finish(loader *ld)
         st = check_isotope(ld);
     if (st == VG_OK)
         st = check_metric_needs(ld);
+    if (st == VG_OK)
+        st = check_uncertainty(ld);
     if (st == VG_OK)
         st = check_grid(ld);
     if (st == VG_OK)
@@ -2520,6 +2538,19 @@ void vg_config_free(vg_config *cfg)
     for (int p = 0; p < VG_NPARAM; p++)
         free(cfg->param[p].v);
     memset(cfg, 0, sizeof *cfg);
+}
+
+vg_status vg_config_require_scalars(const vg_config *cfg, const char *command, int but_gap,
+                                    vg_error *err)
+{
+    for (int p = but_gap ? VG_P_REORG : 0; p < VG_NPARAM; p++)
+        if (cfg->param[p].n > 1)
+            return vg_error_set(err, VG_ECONFIG,
+                                "%s: '%s' needs every parameter%s scalar; '%s' has %zu values "
+                                "(fix it with --set 'parameters.%s=VALUE')", cfg->path, command,
+                                but_gap ? " but 'gap'" : "", params[p].info.key, cfg->param[p].n,
+                                params[p].info.key);
+    return VG_OK;
 }
 
 vg_status vg_config_check_maps(const vg_config *cfg, vg_error *err)

@@ -20,6 +20,7 @@
 #include <pango/pangocairo.h>
 
 #include "draw.h"
+#include "fmt.h"
 #include "vg_colormap.h"
 #include "vg_const.h"
 #include "vg_figure.h"
@@ -59,6 +60,7 @@ typedef struct {
     const double *z;          /* metric over the grid */
     const double *ratio;      /* log10_ratio over the grid */
     const double *feasible;   /* feasible over the grid, NULL without [feasibility] */
+    const vg_field_spec *field; /* a field that is not a metric (vg_figure_field), or NULL */
     axis_view ax, ay;
     size_t ncol, nrow;
     size_t fixed[VG_NPARAM];  /* coordinates of this figure's other axes */
@@ -94,6 +96,17 @@ static const char *metric_markup(vg_metric_id m)
     return s[m];
 }
 
+/* The mapped quantity's label and file name. */
+static const char *z_markup(const figure *f)
+{
+    return f->field ? f->field->label_markup : metric_markup(f->metric);
+}
+
+static const char *z_name(const figure *f)
+{
+    return f->field ? f->field->name : vg_metric_get(f->metric)->name;
+}
+
 /* Display unit: the user's cm-1 or eV where given, else the canonical one. */
 static void display_unit(const vg_param *q, vg_param_id p, double *scale, char *unit, size_t len)
 {
@@ -114,13 +127,7 @@ static void display_unit(const vg_param *q, vg_param_id p, double *scale, char *
 /* "1720", "−0.5": %g with a true minus sign. */
 static void number_markup(double v, char *buf, size_t len)
 {
-    char tmp[40];
-
-    snprintf(tmp, sizeof tmp, "%.4g", v == 0.0 ? 0.0 : v);
-    if (tmp[0] == '-')
-        snprintf(buf, len, "−%s", tmp + 1);
-    else
-        snprintf(buf, len, "%s", tmp);
+    vg_fmt_minus(v, 4, buf, len);
 }
 
 /* "ħω = 1720 cm⁻¹" for parameter p at index k. */
@@ -272,6 +279,9 @@ static vg_status colour_range(figure *f, vg_error *err)
         f->hi = nice_up(hi > 0 ? hi : 1.0);
         f->lo = -f->hi;
         f->clamp_hi = f->clamp_lo = n && v[n - 1] > f->hi;
+    } else if (f->field) {
+        f->lo = f->field->lo;
+        f->hi = f->field->hi;
     } else if (f->metric == VG_M_ASSISTED_FRACTION || f->metric == VG_M_FEASIBLE) {
         f->lo = 0.0;
         f->hi = 1.0;
@@ -414,8 +424,10 @@ static void draw_lines(cairo_t *cr, const figure *f, const double *s, const doub
         cairo_set_source_rgb(cr, 0.15, 0.15, 0.15);
         cairo_stroke(cr);
     }
-    contour_path(cr, f, ratio, 0.0, seg, cap, x0, y0);
-    stroke_cased(cr, 2.4, 1.0, 1.1, 0.0);
+    if (ratio) {
+        contour_path(cr, f, ratio, 0.0, seg, cap, x0, y0);
+        stroke_cased(cr, 2.4, 1.0, 1.1, 0.0);
+    }
     if (feas) {
         contour_path(cr, f, feas, 0.5, seg, cap, x0, y0);
         stroke_cased(cr, 3.0, 0.0, 1.2, 1.0);
@@ -546,14 +558,15 @@ static vg_status draw_panels(cairo_t *cr, const figure *f, vg_error *err)
             double x0, y0;
             panel_origin(f, c, r, &x0, &y0);
             slice(f, f->z, c, r, s);
-            slice(f, f->ratio, c, r, q);
+            if (f->ratio)
+                slice(f, f->ratio, c, r, q);
             if (w)
                 slice(f, f->feasible, c, r, w);
             if (f->ax.uniform && f->ay.uniform)
                 draw_cells_image(cr, f, s, x0, y0);
             else
                 draw_cells_rects(cr, f, s, x0, y0);
-            draw_lines(cr, f, s, q, w, seg, cap, x0, y0);
+            draw_lines(cr, f, s, f->ratio ? q : NULL, w, seg, cap, x0, y0);
             draw_marks(cr, f, c, r, x0, y0);
             draw_axes(cr, f, c, r, x0, y0);
             panel_title(cr, f, c, r, x0, y0);
@@ -639,13 +652,13 @@ static void draw_colorbar(cairo_t *cr, const figure *f)
             vg_draw_text(cr, f->fs->font, FS_TICK, t.label[k], x + w + TICK_LEN + 1.5, ty, 0, 0.5, 0);
     }
     cairo_stroke(cr);
-    if (f->metric == VG_M_LOG10_RATIO) { /* the boundary's level on the bar */
+    if (!f->field && f->metric == VG_M_LOG10_RATIO) { /* the boundary's level on the bar */
         cairo_move_to(cr, x - 2, y + h / 2);
         cairo_line_to(cr, x + w + 2, y + h / 2);
         cairo_set_line_width(cr, 1.1);
         cairo_stroke(cr);
     }
-    vg_draw_text(cr, f->fs->font, FS_LABEL, metric_markup(f->metric), x + w + 30.0, y + h / 2,
+    vg_draw_text(cr, f->fs->font, FS_LABEL, z_markup(f), x + w + 30.0, y + h / 2,
                  0.5, 0.0, VG_PI / 2);
     if (f->clamp_lo || f->clamp_hi)
         vg_draw_text(cr, f->fs->font, FS_SUB - 1.0, "▲▼ clamped", x - 2.0,
@@ -694,15 +707,21 @@ static void titles(figure *f)
 
     snprintf(f->title, sizeof f->title, "%s", t);
     g_free(t);
-    used = (size_t)snprintf(f->sub, sizeof f->sub, "%s", metric_markup(f->metric));
+    used = (size_t)snprintf(f->sub, sizeof f->sub, "%s", z_markup(f));
     for (int p = 0; p < VG_NPARAM && used < sizeof f->sub; p++) {
         char v[160];
         if (p == (int)f->ax.p || p == (int)f->ay.p || p == f->fs->panels || p == f->fs->rows)
             continue;
-        value_markup(f->cfg, (vg_param_id)p, f->fixed[p], v, sizeof v);
+        if (f->field && f->cfg->uncertainty.has[p])
+            snprintf(v, sizeof v, "%s from its prior", symbol_markup((vg_param_id)p));
+        else
+            value_markup(f->cfg, (vg_param_id)p, f->fixed[p], v, sizeof v);
         used += (size_t)snprintf(f->sub + used, sizeof f->sub - used, ",  %s", v);
     }
-    if (used < sizeof f->sub)
+    if (used < sizeof f->sub && !f->ratio)
+        snprintf(f->sub + used, sizeof f->sub - used, "\n%s;  model prediction",
+                 f->field && f->field->note ? f->field->note : "");
+    else if (used < sizeof f->sub)
         snprintf(f->sub + used, sizeof f->sub - used,
                  "\nblack line: <i>k</i><sub>assisted</sub> = <i>k</i><sub>elastic</sub>%s%s"
                  ";  model prediction", f->fs->ncontours ? ";  dashed: extra levels" : "",
@@ -719,7 +738,7 @@ static vg_status draw_one(const figure *f, vg_figure_format fmt, const char *pat
     vg_status st;
 
     snprintf(plain, sizeof plain, "%s: %s", f->cfg->title[0] ? f->cfg->title : "vibrogate sweep",
-             vg_metric_get(f->metric)->name);
+             z_name(f));
     st = vg_canvas_open(&cv, fmt, path, f->W, f->H, f->fs->dpi, plain, meta, err);
     if (st != VG_OK)
         return st;
@@ -739,7 +758,7 @@ static vg_status draw_one(const figure *f, vg_figure_format fmt, const char *pat
 /* "DIR/map-log10_ratio-temperature03" for this figure's fixed axes. */
 static void file_stem(const figure *f, const char *dir, char *buf, size_t len)
 {
-    size_t used = (size_t)snprintf(buf, len, "%s/map-%s", dir, vg_metric_get(f->metric)->name);
+    size_t used = (size_t)snprintf(buf, len, "%s/map-%s", dir, z_name(f));
 
     for (size_t k = 0; k < f->g->naxes && used < len; k++) {
         vg_param_id p = f->g->axis[k];
@@ -792,7 +811,7 @@ static vg_status draw_metric(figure *f, const char *dir, const vg_figure_meta *m
     vg_status st;
 
     memset(f->fixed, 0, sizeof f->fixed);
-    f->diverging = diverging_metric(f->metric);
+    f->diverging = !f->field && diverging_metric(f->metric);
     st = vg_cmap_build(&f->cmap, f->diverging ? VG_CMAP_DIVERGING : VG_CMAP_SEQUENTIAL, err);
     do {
         if (st == VG_OK)
@@ -860,6 +879,30 @@ vg_status vg_figure_maps(const vg_dataset *ds, const char *dir, const vg_figure_
         free(z);
         z = NULL;
     }
+    figure_free(&f);
+    return st;
+}
+
+vg_status vg_figure_field(const vg_config *cfg, const vg_grid *g, const double *field,
+                          const vg_field_spec *spec, const char *dir,
+                          const vg_figure_meta *meta, vg_error *err)
+{
+    figure f;
+    vg_status st;
+
+    memset(&f, 0, sizeof f);
+    f.cfg = cfg;
+    f.g = g;
+    f.fs = &cfg->fig;
+    f.field = spec;
+    f.z = field;
+    f.ncol = f.fs->panels >= 0 ? cfg->param[f.fs->panels].n : 1;
+    f.nrow = f.fs->rows >= 0 ? cfg->param[f.fs->rows].n : 1;
+    st = axis_init(&f.ax, cfg, f.fs->x, err);
+    if (st == VG_OK)
+        st = axis_init(&f.ay, cfg, f.fs->y, err);
+    if (st == VG_OK)
+        st = draw_metric(&f, dir, meta, err);
     figure_free(&f);
     return st;
 }

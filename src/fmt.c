@@ -49,3 +49,28 @@ void vg_fmt_bytes(double bytes, char *buf, size_t len)
     }
     snprintf(buf, len, i == 0 ? "%.0f %s" : "%.3g %s", bytes, unit[i]);
 }
+
+void vg_fmt_json_string(FILE *fp, const char *s)
+{
+    fputc('"', fp);
+    for (const unsigned char *c = (const unsigned char *)s; *c; c++) {
+        if (*c == '"' || *c == '\\')
+            fprintf(fp, "\\%c", *c);
+        else if (*c < 0x20)
+            fprintf(fp, "\\u%04x", *c);
+        else
+            fputc(*c, fp);
+    }
+    fputc('"', fp);
+}
+
+void vg_fmt_minus(double v, int digits, char *buf, size_t len)
+{
+    char tmp[48];
+
+    snprintf(tmp, sizeof tmp, "%.*g", digits, v == 0.0 ? 0.0 : v);
+    if (tmp[0] == '-')
+        snprintf(buf, len, "\u2212%s", tmp + 1);
+    else
+        snprintf(buf, len, "%s", tmp);
+}

@@ -71,6 +71,8 @@ static void usage(FILE *f)
           "  check CONFIG   validate; print resolved parameters, grid shape and output size\n"
           "  render DATA    redraw the figures from a saved sweep.nc (no recomputation)\n"
           "  spectrum CONFIG  rate against gap, channel by channel, for one receptor and odorant\n"
+          "  uncertainty CONFIG  Sobol indices over the priors, or the map of P(feasible)\n"
+          "  sensitivity CONFIG  elasticities d ln M / d ln p at one operating point\n"
           "\n"
           "Options:\n"
           "  -o, --out DIR          output directory (overrides [output] directory)\n"
@@ -81,7 +83,7 @@ static void usage(FILE *f)
           "      --resume           sweep: finish a run that was interrupted, from the\n"
           "                         checkpoint it kept in the output directory (give\n"
           "                         the same CONFIG, --out and --set)\n"
-          "      --json             point: print JSON instead of a table\n"
+          "      --json             point, sensitivity, uncertainty: print JSON instead of a table\n"
           "  -h, --help             show this help and exit\n"
           "  -V, --version          show version information and exit\n"
           "\n"
@@ -179,6 +181,10 @@ static command_fn find_command(const char *name)
         return vg_cmd_render;
     if (strcmp(name, "spectrum") == 0)
         return vg_cmd_spectrum;
+    if (strcmp(name, "uncertainty") == 0)
+        return vg_cmd_uncertainty;
+    if (strcmp(name, "sensitivity") == 0)
+        return vg_cmd_sensitivity;
     return NULL;
 }
 
@@ -231,11 +237,12 @@ static int parse_options(int argc, char **argv, vg_cmd_args *a)
 static int pick_command(int argc, char **argv, const vg_cmd_args *a, command_fn *cmd)
 {
     if (optind >= argc)
-        return usage_error("%s", "missing command (sweep, point, check, render or spectrum)");
+        return usage_error("%s", "missing command (sweep, point, check, render, spectrum, "
+                           "uncertainty or sensitivity)");
     *cmd = find_command(argv[optind]);
     if (!*cmd)
-        return usage_error("unknown command '%s' (expected sweep, point, check, render or "
-                           "spectrum)", argv[optind]);
+        return usage_error("unknown command '%s' (expected sweep, point, check, render, "
+                           "spectrum, uncertainty or sensitivity)", argv[optind]);
     if (optind + 2 != argc)
         return usage_error("'%s' takes exactly one file argument", argv[optind]);
     if (a->resume && *cmd != vg_cmd_sweep)
