@@ -83,8 +83,6 @@ typedef struct {
     double ln_p;        /* ln of the golden-rule prefactor in s^-1 (0 when V == 0) */
     double two_c_mode;  /* 2 hbar omega / (4 lambda k_B T), meV^-1 */
     double c_mode2;     /* (hbar omega)^2 / (4 lambda k_B T) */
-    double fixed_tol;   /* the tolerance fixed_j was found for (-1: none yet) */
-    long fixed_j;       /* channels each side of the peak the row sums (0: adaptive) */
     /* Cache for channels n in [q_lo, q_lo + q_len): entry i is valid when
      * q_gen[i] == gen.  q_len == 0: none. */
     unsigned gen;

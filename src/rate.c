@@ -651,8 +651,6 @@ static vg_status row_init(vg_rate_row *row, const vg_rate_mode *m, double reorg,
     row->ln_p = coupling == 0.0 ? 0.0 : ln_prefactor(coupling, reorg, m->kT);
     row->two_c_mode = 2.0 * m->mode * row->inv4lkt;
     row->c_mode2 = m->mode * m->mode * row->inv4lkt;
-    row->fixed_tol = -1.0;
-    row->fixed_j = 0;
     return VG_OK;
 }
 
@@ -785,64 +783,6 @@ static int lin_sums(vg_rate_mode *m, vg_rate_row *row, long nmin, long p, double
     return 1;
 }
 
-/* Channels summed on each side of the peak when a fixed window will do. */
-#define FIXED_MAX 12
-
-/* The fixed window of a row: the smallest J such that the channels more
- * than J steps from the peak, on either side, hold less than tol/8 of the
- * side's first term (so less than tol/4 of the assisted sum in all), or 0
- * when that needs more than FIXED_MAX (a wide Gaussian against a small
- * quantum; the adaptive sums take such rows).  From log-concavity alone
- * (docs/theory.md 4.1): every step ratio is at most the one before it times
- * e^-b, b = 2 (hbar omega)^2 / (4 lam kT), and the first step away from the
- * peak is at most 1, so the term j steps past the first is at most
- * e^(-b j (j+1) / 2) of it and the rest of a side past J at most
- * e^(-b J (J+1) / 2) / (1 - e^(-b (J+1))) <= e^(-b J (J+1) / 2) / (1 - e^(-2b)). */
-static int fixed_window(double b, double tol)
-{
-    double x, j;
-
-    if (!(b > 0.0) || !(b < 1e300))
-        return 0;
-    x = log(8.0 / tol) - log1p(-exp(-2.0 * b)); /* b J (J+1) / 2 >= x */
-    j = ceil(0.5 * (sqrt(1.0 + 8.0 * x / b) - 1.0));
-    j = j < 1.0 ? 1.0 : j;
-    return j <= FIXED_MAX ? (int)j : 0;
-}
-
-/* The sums of lin_sums over the fixed window of J channels each side (no
- * test per term: the window's bound holds already). */
-static int fixed_sums(vg_rate_mode *m, vg_rate_row *row, long nmin, long p, double A,
-                      double Ai, long J, double *sum, double *t0, long *lo, long *hi)
-{
-    double q[2], t = 1.0;
-    long n, top = p + J, bot = p - J < nmin ? nmin : p - J;
-
-    if (top > CHANNEL_LIMIT)
-        return 0;
-    for (n = p; n < top; n++) {
-        if (!q_get(m, row, n, q))
-            return 0;
-        t *= q[0] * A;
-        if (n + 1 != 0)
-            *sum += t;
-        else
-            *t0 = t;
-    }
-    for (n = p, t = 1.0; n > bot; n--) {
-        if (!q_get(m, row, n - 1, q))
-            return 0;
-        t *= q[1] * Ai;
-        if (n - 1 != 0)
-            *sum += t;
-        else
-            *t0 = t;
-    }
-    *lo = bot;
-    *hi = top;
-    return 1;
-}
-
 /* ln(1 + x) for 0 <= x <= 1: below 2^-10 by its series to x^6 (the first
  * term left out, x^7/7, is below 2^-70 x, far under an ulp of the result),
  * otherwise log1p.  Most points of a sweep have one channel class far
@@ -901,17 +841,9 @@ static void step_sums(vg_rate_mode *m, vg_rate_row *row, double tol, lin_point *
         return;
     lp->sum = lp->p != 0 ? 1.0 : 0.0;
     lp->t0 = lp->p == 0 ? 1.0 : -1.0;
-    if (row->fixed_tol != tol) {
-        row->fixed_tol = tol;
-        row->fixed_j = fixed_window(2.0 * row->c_mode2, tol);
-    }
-    if (row->fixed_j > 0)
-        lp->lin = fixed_sums(m, row, nmin, lp->p, lp->A, 1.0 / lp->A, row->fixed_j, &lp->sum,
-                             &lp->t0, &out->n_lo, &out->n_hi);
-    else
-        lp->lin = lin_sums(m, row, nmin, lp->p, lp->A, 1.0 / lp->A, 0.25 * tol, &lp->sum,
-                           &lp->t0, &out->n_lo, &out->n_hi);
-    lp->lin = lp->lin && lp->sum >= LIN_SUM_MIN;
+    lp->lin = lin_sums(m, row, nmin, lp->p, lp->A, 1.0 / lp->A, 0.25 * tol, &lp->sum,
+                       &lp->t0, &out->n_lo, &out->n_hi)
+              && lp->sum >= LIN_SUM_MIN;
 }
 
 /* Step 3: the logs of the sums and the fraction. */
