@@ -41,12 +41,18 @@ B         := build-mpi
 else
 B         := build
 endif
+# The sanitizer build (tests/hardening.mk): AddressSanitizer and UBSan,
+# halting on the first error, in a directory of its own.  MPI=1 ignores it.
+ifeq ($(SANITIZE)$(MPI),10)
+SANFLAGS  := -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all
+B         := build-asan
+endif
 
 # Recursive (=) so that pkg-config runs after the deps step has installed it.
 # Library headers as system headers, so our warning flags judge only our code.
 PKG_CFLAGS = $(patsubst -I%,-isystem %,$(shell $(PKG_CONFIG) --cflags $(PKGS)))
 PKG_LIBS   = $(shell $(PKG_CONFIG) --libs $(PKGS))
-ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) $(MPIFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
+ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) $(MPIFLAGS) $(SANFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
              -DVG_VERSION='"$(VERSION)"' -DVG_INIH_VERSION='"$(shell $(PKG_CONFIG) --modversion inih)"' $(CPPFLAGS) $(CFLAGS)
 ALL_LIBS   = $(PKG_LIBS) -lm
 
@@ -138,3 +144,5 @@ uninstall:
 
 clean:
 	rm -rf $(B)
+
+include tests/hardening.mk

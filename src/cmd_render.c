@@ -9,6 +9,7 @@
 
 #include "cmd.h"
 #include "draw.h"
+#include "fsutil.h"
 #include "vg_dataset.h"
 #include "vg_figure.h"
 
@@ -44,6 +45,8 @@ vg_status vg_cmd_figures(const char *nc_path, const char *dir, size_t nset,
     vg_status st = open_for_figures(&ds, nc_path, nset, sets, default_png, err);
 
     if (st == VG_OK && (st = vg_config_check_maps(&ds.cfg, err)) != VG_OK)
+        vg_dataset_close(&ds);
+    if (st == VG_OK && ds.cfg.fig.formats && (st = vg_fs_make_dirs(dir, err)) != VG_OK)
         vg_dataset_close(&ds);
     if (st != VG_OK)
         return st;

@@ -345,18 +345,6 @@ static vg_status render(printer print, const vg_config *cfg, const vg_sens_resul
     return VG_OK;
 }
 
-static vg_status use_dir(const char *dir, vg_error *err)
-{
-    struct stat sb;
-
-    if (mkdir(dir, 0777) != 0 && errno != EEXIST)
-        return vg_error_set(err, VG_EIO, "cannot create output directory '%s': %s", dir,
-                            strerror(errno));
-    if (stat(dir, &sb) != 0 || !S_ISDIR(sb.st_mode))
-        return vg_error_set(err, VG_EIO, "output directory '%s' is not a directory", dir);
-    return VG_OK;
-}
-
 static vg_status write_report(const char *dir, const char *name, const char *text, size_t len,
                               int quiet, vg_error *err)
 {
@@ -390,7 +378,7 @@ static vg_status outputs(const vg_cmd_args *a, const vg_config *cfg, const vg_se
         }
     }
     if (st == VG_OK)
-        st = use_dir(dir, err);
+        st = vg_fs_make_dirs(dir, err);
     if (st == VG_OK)
         st = draw_all(cfg, r, dir, a->quiet, err);
     if (st == VG_OK)

@@ -17,6 +17,7 @@
 #include <glib.h>
 
 #include "cmd.h"
+#include "fsutil.h"
 #include "draw.h"
 #include "vg_colormap.h"
 #include "vg_config.h"
@@ -337,8 +338,10 @@ static vg_status draw_all(const spectrum *s, const char *dir, int quiet, vg_erro
     vg_figure_meta meta;
 
     vg_draw_meta(&meta, stamp, software, quiet);
-    if (mkdir(dir, 0777) != 0 && access(dir, W_OK) != 0)
-        return vg_error_set(err, VG_EIO, "cannot use output directory '%s'", dir);
+    vg_status made = vg_fs_make_dirs(dir, err);
+
+    if (made != VG_OK)
+        return made;
     for (size_t k = 0; k < 3; k++) {
         vg_status st;
         if (!(want & fmts[k]))

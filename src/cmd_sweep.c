@@ -19,6 +19,7 @@
 
 #include "checkpoint.h"
 #include "cmd.h"
+#include "fsutil.h"
 #include "vg_config.h"
 #include "vg_grid.h"
 #include "vg_output.h"
@@ -41,33 +42,6 @@ static vg_status sink(void *ctx, size_t start, size_t count, const double *metri
         if (st != VG_OK)
             return st;
     }
-    return VG_OK;
-}
-
-/* mkdir -p */
-static vg_status make_dirs(const char *dir, vg_error *err)
-{
-    char path[4096];
-    size_t len = strlen(dir);
-
-    if (len == 0 || len >= sizeof path)
-        return vg_error_set(err, VG_EIO, "output directory name '%s' is empty or too long", dir);
-    memcpy(path, dir, len + 1);
-    for (char *p = path + 1; ; p++) {
-        if (*p != '/' && *p != '\0')
-            continue;
-        char c = *p;
-        *p = '\0';
-        if (mkdir(path, 0777) != 0 && errno != EEXIST)
-            return vg_error_set(err, VG_EIO, "cannot create output directory '%s': %s",
-                                path, strerror(errno));
-        *p = c;
-        if (c == '\0')
-            break;
-    }
-    struct stat sb;
-    if (stat(dir, &sb) != 0 || !S_ISDIR(sb.st_mode))
-        return vg_error_set(err, VG_EIO, "output directory '%s' is not a directory", dir);
     return VG_OK;
 }
 
@@ -404,7 +378,7 @@ static vg_status run(const vg_cmd_args *a, vg_config *cfg, vg_error *err)
 
     vg_grid_init(&g, cfg);
     if (root)
-        st = a->resume ? VG_OK : make_dirs(dir, err);
+        st = a->resume ? VG_OK : vg_fs_make_dirs(dir, err);
     if (root && st == VG_OK)
         st = open_checkpoint(a, cfg, &g, dir, chunk, &ck, err);
     st = vg_dist_agree(st, err);

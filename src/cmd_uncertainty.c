@@ -64,42 +64,6 @@ typedef struct {
 
 /* ------------------------------------------------------------ files --- */
 
-/* mkdir -p, one level at a time from the deepest missing one. */
-static int make_path(char *path)
-{
-    char *slash;
-    int e;
-
-    if (mkdir(path, 0777) == 0 || errno == EEXIST)
-        return 0;
-    if (errno != ENOENT || !(slash = strrchr(path, '/')) || slash == path)
-        return errno;
-    *slash = '\0';
-    e = make_path(path);
-    *slash = '/';
-    if (e != 0)
-        return e;
-    return mkdir(path, 0777) == 0 || errno == EEXIST ? 0 : errno;
-}
-
-static vg_status make_dir(const char *dir, vg_error *err)
-{
-    char *path = strdup(dir);
-    struct stat sb;
-    int e;
-
-    if (!path)
-        return vg_error_set(err, VG_ENOMEM, "out of memory");
-    e = make_path(path);
-    free(path);
-    if (e != 0)
-        return vg_error_set(err, VG_EIO, "cannot create output directory '%s': %s", dir,
-                            strerror(e));
-    if (stat(dir, &sb) != 0 || !S_ISDIR(sb.st_mode))
-        return vg_error_set(err, VG_EIO, "output directory '%s' is not a directory", dir);
-    return VG_OK;
-}
-
 static void free_staged(staged *f)
 {
     free(f->path);
@@ -456,7 +420,7 @@ static vg_status sobol_chart(const unc_run *r, const sobol_report *rep, vg_error
 static vg_status sobol_outputs(const unc_run *r, const sobol_report *rep, vg_error *err)
 {
     staged_set ss = {.n = 0};
-    vg_status st = make_dir(r->dir, err);
+    vg_status st = vg_fs_make_dirs(r->dir, err);
 
     if (st == VG_OK)
         st = stage_printed(&ss, r->dir, "uncertainty.txt", print_table, rep, err);
@@ -751,7 +715,7 @@ static vg_status map_figure(const unc_run *r, const map_data *md, vg_error *err)
 static vg_status map_outputs(const unc_run *r, const map_data *md, vg_error *err)
 {
     staged_set ss = {.n = 0};
-    vg_status st = make_dir(r->dir, err);
+    vg_status st = vg_fs_make_dirs(r->dir, err);
 
     if (st == VG_OK && (r->cfg.formats & VG_FMT_NETCDF))
         st = stage_netcdf(&ss, r, md->prob, md->se, err);

@@ -6,7 +6,7 @@ set -u
 PKGS="make gcc pkg-config libgsl-dev libinih-dev libnetcdf-dev libcmocka-dev \
 libpng-dev libcairo2-dev libpango1.0-dev netcdf-bin poppler-utils \
 python3 python3-numpy python3-scipy python3-mpmath python3-netcdf4 \
-libopenmpi-dev openmpi-bin"
+libopenmpi-dev openmpi-bin clang libclang-rt-dev valgrind"
 
 missing=""
 for p in $PKGS; do

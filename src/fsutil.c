@@ -56,3 +56,29 @@ vg_status vg_fs_write_atomic(const char *path, const char *text, size_t len, vg_
         return vg_error_set(err, VG_EIO, "cannot write '%s': %s", path, strerror(e));
     return VG_OK;
 }
+
+vg_status vg_fs_make_dirs(const char *dir, vg_error *err)
+{
+    char path[4096];
+    size_t len = strlen(dir);
+    struct stat sb;
+
+    if (len == 0 || len >= sizeof path)
+        return vg_error_set(err, VG_EIO, "output directory name '%s' is empty or too long", dir);
+    memcpy(path, dir, len + 1);
+    for (char *p = path + 1;; p++) {
+        char c = *p;
+        if (c != '/' && c != '\0')
+            continue;
+        *p = '\0';
+        if (mkdir(path, 0777) != 0 && errno != EEXIST)
+            return vg_error_set(err, VG_EIO, "cannot create output directory '%s': %s", path,
+                                strerror(errno));
+        *p = c;
+        if (c == '\0')
+            break;
+    }
+    if (stat(dir, &sb) != 0 || !S_ISDIR(sb.st_mode))
+        return vg_error_set(err, VG_EIO, "output directory '%s' is not a directory", dir);
+    return VG_OK;
+}

@@ -14,6 +14,11 @@
  * has the same permissions as any file the user creates. */
 mode_t vg_fs_new_file_mode(void);
 
+/* mkdir -p dir: create it and its missing parents; VG_EIO "cannot create
+ * output directory 'PATH': reason" or "output directory 'DIR' is not a
+ * directory". */
+vg_status vg_fs_make_dirs(const char *dir, vg_error *err);
+
 /* Write len bytes of text to path atomically: into a hidden temporary file
  * in the same directory, synced, then renamed over path; on failure the
  * temporary is removed and path is untouched.  VG_EIO or VG_ENOMEM. */

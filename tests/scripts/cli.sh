@@ -79,3 +79,10 @@ if grep -q "free disk space for '$T/big'" "$T/out" && { [ "$avail" -gt 500000000
 else
     fail "check disk-space warning" "$(cat "$T/out" "$T/err" | tail -3)"
 fi
+
+# --out DIR is created if missing (vibrogate.1, OPTIONS), for render too.
+"$VG" sweep configs/point.ini --set 'parameters.reorganization=20 .. 100 meV, 3 points' \
+    --set 'parameters.gap=0 .. 300 meV, 4 points' --set 'output.figures=png' \
+    --out "$T/rs" --quiet >/dev/null 2>&1
+expect_status "render --out into a missing directory" 0 "$VG" render "$T/rs/sweep.nc" --out "$T/new/deeper" --quiet
+[ -f "$T/new/deeper/map-log10_ratio.png" ] && pass "render created the directory and drew the map" || fail "render --out" "$(ls -R "$T/new" 2>&1 | head -5)"
