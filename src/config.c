@@ -33,6 +33,7 @@
 #include <ini.h>
 
 #include "fmt.h"
+#include "textscan.h"
 #include "vg_config.h"
 #include "vg_const.h"
 #include "vg_evaluate.h"
@@ -1739,32 +1740,6 @@ typedef struct {
     vg_status status;               /* first failure */
 } loader;
 
-/* Length of the well-formed UTF-8 sequence at s[0..left), 0 if ill-formed
- * (The Unicode Standard, Table 3-7: no overlong forms, no surrogates,
- * nothing above U+10FFFF). */
-static size_t utf8_length(const unsigned char *s, size_t left)
-{
-    unsigned lo = 0x80, hi = 0xBF;
-    size_t n;
-
-    if (s[0] < 0x80)
-        return 1;
-    if (s[0] >= 0xC2 && s[0] <= 0xDF)
-        n = 2;
-    else if (s[0] >= 0xE0 && s[0] <= 0xEF)
-        n = 3, lo = s[0] == 0xE0 ? 0xA0 : lo, hi = s[0] == 0xED ? 0x9F : hi;
-    else if (s[0] >= 0xF0 && s[0] <= 0xF4)
-        n = 4, lo = s[0] == 0xF0 ? 0x90 : lo, hi = s[0] == 0xF4 ? 0x8F : hi;
-    else
-        return 0;
-    if (left < n || s[1] < lo || s[1] > hi)
-        return 0;
-    for (size_t k = 2; k < n; k++)
-        if (s[k] < 0x80 || s[k] > 0xBF)
-            return 0;
-    return n;
-}
-
 /* Only UTF-8 text and tabs: no NUL, no other control character. */
 static vg_status check_bytes(span a, vg_error *err)
 {
@@ -1778,7 +1753,7 @@ static vg_status check_bytes(span a, vg_error *err)
         if ((s[i] < 0x20 && s[i] != '\t') || s[i] == 0x7F)
             return vg_error_set(err, VG_ECONFIG, "control character 0x%02x at byte %zu (only "
                                 "UTF-8 text and tabs are allowed)", s[i], i + 1);
-        n = utf8_length(s + i, a.n - i);
+        n = vg_text_utf8_length(s + i, a.n - i);
         if (n == 0)
             return vg_error_set(err, VG_ECONFIG, "invalid UTF-8 at byte %zu (config files must "
                                 "be UTF-8 text)", i + 1);
@@ -1949,15 +1924,6 @@ static vg_status parse_text(loader *ld, size_t len)
     return VG_OK;
 }
 
-static vg_status file_error(vg_error *err, const char *path, const char *what, int e)
-{
-    char reason[128];
-
-    snprintf(reason, sizeof reason, "%s", strerror(e));
-    reason[0] = (char)tolower((unsigned char)reason[0]);
-    return vg_error_set(err, VG_ECONFIG, "%s: %s: %s", path, what, reason);
-}
-
 /* The whole file into *text (NUL-terminated), at most CFG_FILE_MAX bytes. */
 static vg_status read_file(const char *path, char **text, size_t *len, vg_error *err)
 {
@@ -1967,7 +1933,7 @@ static vg_status read_file(const char *path, char **text, size_t *len, vg_error 
     int e;
 
     if (!f)
-        return file_error(err, path, "cannot open config file", errno);
+        return vg_text_file_error(err, path, "cannot open config file", errno);
     buf = malloc(CFG_FILE_MAX + 2);
     if (!buf) {
         fclose(f);
@@ -1979,7 +1945,7 @@ static vg_status read_file(const char *path, char **text, size_t *len, vg_error 
     if (e != 0 || n > CFG_FILE_MAX) {
         free(buf);
         if (e != 0)
-            return file_error(err, path, "cannot read config file", e);
+            return vg_text_file_error(err, path, "cannot read config file", e);
         return vg_error_set(err, VG_ECONFIG, "%s: config file is larger than the limit of %d "
                             "bytes", path, CFG_FILE_MAX);
     }

@@ -17,20 +17,20 @@
 
 static const vg_metric_info metric_table[VG_N_METRICS] = {
     [VG_M_LOG10_K_ELASTIC] = {"log10_k_elastic", "1",
-                              "log10 of the elastic (no quantum exchanged) rate in s-1"},
+                              "log10 of the elastic (no quantum exchanged) rate in s-1", 0},
     [VG_M_LOG10_K_ASSISTED] = {"log10_k_assisted", "1",
                                "log10 of the vibrationally assisted rate (all channels "
-                               "exchanging quanta) in s-1"},
+                               "exchanging quanta) in s-1", 0},
     [VG_M_LOG10_K_TOTAL] = {"log10_k_total", "1",
-                            "log10 of the total transfer rate in s-1"},
+                            "log10 of the total transfer rate in s-1", 0},
     [VG_M_LOG10_K_BARE] = {"log10_k_bare", "1",
-                           "log10 of the Marcus rate without the odorant mode in s-1"},
+                           "log10 of the Marcus rate without the odorant mode in s-1", 0},
     [VG_M_LOG10_RATIO] = {"log10_ratio", "1",
-                          "log10 of the ratio of assisted to elastic rate"},
+                          "log10 of the ratio of assisted to elastic rate", 0},
     [VG_M_ASSISTED_FRACTION] = {"assisted_fraction", "1",
-                                "fraction of the total rate carried by assisted channels"},
+                                "fraction of the total rate carried by assisted channels", 0},
     [VG_M_LOG10_CONTRAST] = {"log10_contrast", "1",
-                             "log10 of the ratio of total rate to bare Marcus rate"},
+                             "log10 of the ratio of total rate to bare Marcus rate", 0},
     [VG_M_LOG10_K_TOTAL_HEAVY] = {"log10_k_total_heavy", "1",
                                   "log10 of the total transfer rate with the heavy "
                                   "isotopologue in s-1", VG_NEEDS_ISOTOPE},

@@ -24,11 +24,10 @@
 # OpenMP (the harnesses never reach the sweep) and without -Werror (a clang
 # warning that gcc does not give is reported, not fatal).
 #
-# Harnesses to come: the mode-table reader does not exist yet.  When it
-# does, its harness is tests/fuzz/fuzz_modes.c (same shape as
-# fuzz_config.c: the reader on arbitrary bytes, NUL bytes included), with
-# seeds added in tests/fuzz/seeds.sh and regressions in
-# tests/fuzz/regressions/fuzz_modes/; the rules below pick it up by name.
+# Harnesses: fuzz_config (the config loader), fuzz_value (the value
+# grammar) and fuzz_modes (the mode-table reader, src/modes.c, on arbitrary
+# bytes, NUL bytes included, seeded from tests/data/modes/); the rules
+# below pick up any tests/fuzz/fuzz_*.c by name.
 
 .PHONY: sanitize sanitize-cc valgrind fuzz fuzz-build fuzz-replay fuzz-clean test-bins
 

@@ -35,3 +35,9 @@ for e in tests/bad/*.expect; do
     cp "$ini" "$out"
     sed -n '4,$p' "$e" | while IFS= read -r s; do printf '\000%s' "$s"; done >>"$out"
 done
+
+# DIR/fuzz_modes/  every mode table of tests/data/modes/ as it is
+#                  (tests/fuzz/fuzz_modes.c)
+rm -rf "$D/fuzz_modes"
+mkdir -p "$D/fuzz_modes"
+cp tests/data/modes/*.csv "$D/fuzz_modes/"
