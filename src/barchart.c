@@ -34,6 +34,7 @@ typedef struct {
     const vg_figure_spec *fig;
     vg_barchart_geom g;
     double title_y, sub_y, legend_y, tick_y, axis_y, note_y;
+    double title_pt, sub_pt;   /* title and subtitle sizes, shrunk to fit the width */
     int legend;
 } chart;
 
@@ -135,6 +136,26 @@ static double markup_width(cairo_t *cr, const char *font, double size, const cha
     return w;
 }
 
+/* The size at most size_pt (and at least 60 % of it) at which markup fits
+ * in avail points: long scenario titles shrink instead of running off the
+ * page. */
+static double fit_size(cairo_t *cr, const char *font, double size_pt, const char *markup,
+                       double avail)
+{
+    double size = size_pt;
+
+    /* measured at each candidate size: the width is not quite proportional
+     * to the size (glyph metrics are rounded per size) */
+    for (int k = 0; k < 24 && size > 0.6 * size_pt; k++) {
+        double w = markup_width(cr, font, size, markup, NULL);
+        if (!(w > avail) || !(avail > 0.0))
+            return size;
+        size *= fmax(0.9, avail / w);
+        size = size * 0.995;
+    }
+    return fmax(size, 0.6 * size_pt);
+}
+
 static vg_status layout(chart *c, cairo_t *cr, vg_error *err)
 {
     const vg_barchart *bc = c->bc;
@@ -147,9 +168,13 @@ static vg_status layout(chart *c, cairo_t *cr, vg_error *err)
     g->width_pt = c->fig->width_in * 72.0;
     for (size_t i = 0; i < bc->nitems; i++)
         label_w = fmax(label_w, markup_width(cr, font, FS_ROW, bc->items[i].label, NULL));
-    markup_width(cr, font, FS_TITLE, bc->title, &th);
-    if (bc->subtitle && *bc->subtitle)
-        markup_width(cr, font, FS_SUB, bc->subtitle, &sh);
+    c->title_pt = fit_size(cr, font, FS_TITLE, bc->title, g->width_pt - 2.0 * MARGIN);
+    markup_width(cr, font, c->title_pt, bc->title, &th);
+    c->sub_pt = FS_SUB;
+    if (bc->subtitle && *bc->subtitle) {
+        c->sub_pt = fit_size(cr, font, FS_SUB, bc->subtitle, g->width_pt - 2.0 * MARGIN);
+        markup_width(cr, font, c->sub_pt, bc->subtitle, &sh);
+    }
     if (bc->note && *bc->note)
         markup_width(cr, font, FS_NOTE, bc->note, &nh);
     c->legend = bc->nseries == 2 || (bc->nseries == 1 && bc->series_name[0]);
@@ -374,11 +399,11 @@ static void draw_chart(cairo_t *cr, const chart *c, const vg_ticks *t)
     const vg_barchart *bc = c->bc;
 
     cairo_set_source_rgb(cr, 0, 0, 0);
-    vg_draw_text(cr, c->fig->font, FS_TITLE, bc->title, c->g.width_pt / 2, c->title_y, 0.5,
+    vg_draw_text(cr, c->fig->font, c->title_pt, bc->title, c->g.width_pt / 2, c->title_y, 0.5,
                  0.0, 0);
     if (bc->subtitle && *bc->subtitle)
-        vg_draw_text(cr, c->fig->font, FS_SUB, bc->subtitle, c->g.width_pt / 2, c->sub_y, 0.5,
-                     0.0, 0);
+        vg_draw_text(cr, c->fig->font, c->sub_pt, bc->subtitle, c->g.width_pt / 2, c->sub_y,
+                     0.5, 0.0, 0);
     if (c->legend)
         draw_legend(cr, c);
     draw_rows(cr, c);
