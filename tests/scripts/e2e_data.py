@@ -32,10 +32,10 @@ import tempfile
 import numpy as np
 import netCDF4
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-BUILD = os.environ.get("VG_BUILD", "build")
-BINARY = os.path.join(ROOT, BUILD, "vibrogate") if not os.path.isabs(BUILD) \
-    else os.path.join(BUILD, "vibrogate")
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "lib"))
+from vgcheck import ROOT, build_path, report, failed  # noqa: E402
+
+BINARY = build_path("vibrogate")
 CONFIG = os.path.join(ROOT, "configs", "demo.ini")
 
 # Axis order, slowest first (vg_grid.h) and canonical units (docs/theory.md table).
@@ -50,17 +50,6 @@ CSV_KEYS = ["gap", "reorganization", "electronic_coupling", "huang_rhys", "mode"
             "temperature"]
 NC_FILL_DOUBLE = 9.9692099683868690e+36  # netcdf.h
 
-failures = 0
-
-
-def report(ok, what, why=""):
-    global failures
-    if ok:
-        print("PASS: " + what)
-    else:
-        failures += 1
-        print("FAIL: %s: %s" % (what, why))
-    return ok
 
 
 def run_sweep(out, *extra):
@@ -289,7 +278,7 @@ def main():
             check_set(tmp, base)
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
-    return 1 if failures else 0
+    return 1 if failed() else 0
 
 
 if __name__ == "__main__":

@@ -45,9 +45,10 @@ import numpy as np
 import netCDF4
 from scipy import integrate, special
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-BUILD = os.environ.get("VG_BUILD", "build")
-BINARY = os.path.join(BUILD if os.path.isabs(BUILD) else os.path.join(ROOT, BUILD), "vibrogate")
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "lib"))
+from vgcheck import build_path, report, failed  # noqa: E402
+
+BINARY = build_path("vibrogate")
 
 # Exact defining constants of the SI (2019).
 SI_H, SI_E, SI_K = 6.62607015e-34, 1.602176634e-19, 1.380649e-23
@@ -88,16 +89,6 @@ metric = log10_k_total
 samples = 4096
 """
 
-failures = 0
-
-
-def report(ok, what, why=""):
-    global failures
-    if ok:
-        print("PASS: %s" % what)
-    else:
-        failures += 1
-        print("FAIL: %s: %s" % (what, why))
 
 
 def run(config_text, out, *extra):
@@ -317,7 +308,7 @@ def main():
         check_sobol(tmp)
     finally:
         shutil.rmtree(tmp)
-    return 1 if failures else 0
+    return 1 if failed() else 0
 
 
 if __name__ == "__main__":

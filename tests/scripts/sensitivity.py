@@ -29,27 +29,18 @@ import os
 import re
 import shutil
 import subprocess
+import sys
 import tempfile
 
 import mpmath as mp
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-BUILD = os.environ.get("VG_BUILD", "build")
-BINARY = os.path.join(BUILD if os.path.isabs(BUILD) else os.path.join(ROOT, BUILD),
-                      "vibrogate")
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "lib"))
+from vgcheck import build_path, report  # noqa: E402
+
+BINARY = build_path("vibrogate")
 KB_MEV = mp.mpf("1.380649e-23") / mp.mpf("1.602176634e-19") * 1000  # meV/K, exact SI
 KEYS = ["gap", "reorganization", "electronic_coupling", "huang_rhys", "mode", "temperature"]
 
-failures = 0
-
-
-def report(ok, what, why=""):
-    global failures
-    if ok:
-        print("PASS: " + what)
-    else:
-        failures += 1
-        print("FAIL: " + what + ": " + why)
 
 
 mp.mp.dps = 40

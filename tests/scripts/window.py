@@ -34,10 +34,10 @@ import numpy as np
 import netCDF4
 from scipy import special
 
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-BUILD = os.environ.get("VG_BUILD", "build")
-BINARY = os.path.join(BUILD if os.path.isabs(BUILD) else os.path.join(ROOT, BUILD),
-                      "vibrogate")
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "lib"))
+from vgcheck import build_path, report, failed  # noqa: E402
+
+BINARY = build_path("vibrogate")
 
 # CODATA 2018 (exact in SI-2019): k_B/e and hbar/e; 1 cm-1 = h c e^-1 100 eV.
 KB_EV = 1.380649e-23 / 1.602176634e-19
@@ -63,16 +63,6 @@ require = isotope_effect > 2
 data = netcdf
 """
 
-failures = 0
-
-
-def report(ok, what, why=""):
-    global failures
-    if ok:
-        print("PASS: " + what)
-    else:
-        failures += 1
-        print("FAIL: %s: %s" % (what, why))
 
 
 def ln_k_total(gap, lam, V, S, hw, T):
@@ -201,4 +191,4 @@ def main():
 
 
 main()
-sys.exit(1 if failures else 0)
+sys.exit(1 if failed() else 0)
