@@ -85,7 +85,13 @@ static void print_text(const vg_config *cfg, point_result *pr)
         printf("  %-20s %.10g %s%s\n", vg_param_get((vg_param_id)p)->key, pr->v[p],
                strcmp(vg_param_get((vg_param_id)p)->unit, "1") ? vg_param_get((vg_param_id)p)->unit : "",
                cfg->param[p].defaulted ? "  (default)" : "");
-    printf("  mode statistics      %s\n\n", cfg->stats == VG_STATS_FROZEN ? "frozen" : "thermal");
+    printf("  mode statistics      %s\n", cfg->stats == VG_STATS_FROZEN ? "frozen" : "thermal");
+    if (cfg->isotope.on)
+        printf("  heavy isotopologue   mode %.10g meV, huang_rhys %.10g (frequency ratio %.10g, "
+               "%s rule)\n", pr->ev.heavy_mode.mode, pr->ev.heavy_mode.S,
+               cfg->isotope.frequency_ratio,
+               cfg->isotope.rule == VG_HR_FIXED ? "fixed" : "Born-Oppenheimer");
+    printf("\n");
     printf("channels (n > 0: quanta given to the mode; n < 0: taken from it;\n"
            "listed: n = 0 and every channel with at least %.0e of the total)\n", SHARE_MIN);
     printf("  %6s  %-11s %12s  %-11s  %-11s  %s\n", "n", "weight W_n", "resonance/meV",
@@ -145,7 +151,17 @@ static void print_json(const vg_config *cfg, point_result *pr)
         printf("%s\"%s\": ", p ? ", " : "", vg_param_get((vg_param_id)p)->csv_column);
         json_number(pr->v[p]);
     }
-    printf("},\n  \"defaults\": [");
+    printf("},\n");
+    if (cfg->isotope.on) {
+        printf("  \"heavy\": {\"mode_meV\": ");
+        json_number(pr->ev.heavy_mode.mode);
+        printf(", \"huang_rhys\": ");
+        json_number(pr->ev.heavy_mode.S);
+        printf(", \"frequency_ratio\": ");
+        json_number(cfg->isotope.frequency_ratio);
+        printf("},\n");
+    }
+    printf("  \"defaults\": [");
     for (int p = 0, k = 0; p < VG_NPARAM; p++)
         if (cfg->param[p].defaulted)
             printf("%s\"%s\"", k++ ? ", " : "", vg_param_get((vg_param_id)p)->key);

@@ -186,6 +186,22 @@ def main():
         report(abs(rp["distance_to_edge"] - best) < 1e-12 and got == arg,
                "summary: most robust point against a brute-force distance (%.4f at %s)"
                % (best, arg), "got %.6g at %s" % (rp["distance_to_edge"], got))
+        # point names the heavy isotopologue: hbar omega / 1.362 and, by the
+        # Born-Oppenheimer rule, S * 1.362 (physics reference)
+        pini = os.path.join(tmp, "one.ini")
+        with open(pini, "w") as f:
+            f.write(CONFIG.replace("gap = 100 .. 600 meV, 41 points", "gap = 400 meV")
+                    .replace("reorganization = 10 .. 300 meV, 23 points, log",
+                             "reorganization = 30 meV")
+                    .replace("temperature = 280, 298.15, 310 K", "temperature = 310 K"))
+        r = subprocess.run([BINARY, "point", pini, "--json"], capture_output=True, text=True)
+        ok = r.returncode == 0
+        if ok:
+            h = json.loads(r.stdout)["heavy"]
+            ok = (abs(h["mode_meV"] / (2950 * CM1_MEV / 1.362) - 1) < 1e-12
+                  and abs(h["huang_rhys"] / (0.05 * 1.362) - 1) < 1e-12)
+        report(ok, "point --json names the heavy mode (hbar omega / 1.362) and S * 1.362",
+               r.stderr.strip() or r.stdout[:200])
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
 
