@@ -13,6 +13,7 @@
 #include "vg_rate.h"
 #include "vg_metrics.h"
 #include "vg_prior.h"
+#include "vg_modes.h"
 
 /* The six parameters, in CSV column order. */
 typedef enum {
@@ -105,6 +106,21 @@ typedef struct {
     double level;                  /* confidence level (default 0.95) */
 } vg_uncertainty;
 
+/* [odorant.NAME]: a many-mode odorant from a mode table (include/vg_modes.h),
+ * and optionally its heavy isotopologue's table.  Used by 'point' so far. */
+#define VG_MAX_ODORANTS 8
+
+typedef struct {
+    char name[32];            /* NAME: letters, digits, '_' and '-' */
+    int line;                 /* line of the section header */
+    int modes_line;           /* line of 'modes' (0: not given, -1: --set) */
+    int heavy_line;           /* line of 'heavy_modes' (0: not given) */
+    char modes_path[1024];    /* as written (relative to the config's directory) */
+    char heavy_path[1024];
+    vg_modes *light;          /* owned; NULL until loaded */
+    vg_modes *heavy;          /* owned; NULL without 'heavy_modes' */
+} vg_odorant;
+
 typedef struct {
     char *path;               /* config file path as given (owned) */
     char *text;               /* full config file text (owned) */
@@ -122,6 +138,8 @@ typedef struct {
     vg_isotope isotope;       /* [isotope] */
     vg_require_set feasibility; /* [feasibility] require = ... lines */
     vg_uncertainty uncertainty; /* [uncertainty] */
+    size_t nodorants;         /* [odorant.NAME] sections */
+    vg_odorant *odorants;     /* nodorants records (owned) */
 } vg_config;
 
 /* Parse path, apply the nset overrides "section.key=value" in order, and
@@ -141,6 +159,10 @@ void vg_config_free(vg_config *cfg);
  * every parameter (but gap when but_gap is set) has a single value. */
 vg_status vg_config_require_scalars(const vg_config *cfg, const char *command, int but_gap,
                                     vg_error *err);
+
+/* VG_ECONFIG "FILE: 'COMMAND' does not take many-mode odorants yet ..."
+ * when cfg has [odorant.NAME] sections (only 'point' uses them so far). */
+vg_status vg_config_refuse_odorants(const vg_config *cfg, const char *command, vg_error *err);
 
 /* What metric m needs that cfg lacks ("an [isotope] section", ...), or
  * NULL when cfg can compute it. */

@@ -16,6 +16,7 @@ typedef struct {
     int threads;               /* --threads, 0 = default */
     int quiet;                 /* --quiet */
     int json;                  /* --json (point) */
+    int compare;               /* --compare (point: both many-mode engines) */
     size_t nset;               /* --set KEY=VALUE, in order */
     const char **sets;
     int resume;                /* --resume (sweep) */

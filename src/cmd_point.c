@@ -5,12 +5,15 @@
  */
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "cmd.h"
 #include "vg_config.h"
 #include "vg_const.h"
 #include "vg_evaluate.h"
+#include "vg_fft.h"
+#include "vg_multimode.h"
 #include "vg_metrics.h"
 
 /* Channels listed: n = 0 always, others carrying at least this share of
@@ -140,7 +143,161 @@ static void print_json_channel(point_result *pr, long n, int first)
     printf("}");
 }
 
-static void print_json(const vg_config *cfg, point_result *pr)
+/* ---------------------------------------------------- many-mode odorants --- */
+
+/* One odorant's results at the operating point. */
+typedef struct {
+    vg_multimode_rates light, heavy;
+    int has_heavy;
+    vg_fft_point fft;          /* --compare: the FFT engine's F_total */
+    double fft_diff;           /* |F_fft / F_sum - 1| where the FFT trusts its value */
+} odorant_result;
+
+/* Transform lengths and lattice terms the point command allows one odorant
+ * (about a second of work at most on a desktop core). */
+#define ODOR_FFT_MAX ((size_t)1 << 24)
+#define ODOR_WORK_MAX 2e8
+
+/* F and k of table t at v by the frequency-domain sum engine. */
+static vg_status sum_engine(const vg_config *cfg, const double v[VG_NPARAM], const vg_modes *t,
+                            vg_multimode_rates *out, vg_error *err)
+{
+    vg_multimode_system sys = {cfg->stats, t->n, t->mode};
+    vg_multimode_work *w = NULL;
+    size_t points = 0;
+    double work = 0.0;
+    vg_status st = vg_multimode_need(&sys, v[VG_P_REORG], v[VG_P_TEMPERATURE], v[VG_P_GAP],
+                                     v[VG_P_GAP], 1, cfg->tolerance, &points, &work, err);
+
+    if (st == VG_OK)
+        st = vg_multimode_alloc(t->n, 2 * points + 64, ODOR_WORK_MAX, &w, err);
+    if (st == VG_OK)
+        st = vg_multimode_eval(w, &sys, v[VG_P_REORG], v[VG_P_TEMPERATURE], v[VG_P_COUPLING],
+                               cfg->tolerance, 1, &v[VG_P_GAP], out, err);
+    vg_multimode_free(w);
+    return st;
+}
+
+/* F_total of table t at v by the time-domain FFT engine. */
+static vg_status fft_engine(const vg_config *cfg, const double v[VG_NPARAM], const vg_modes *t,
+                            vg_fft_point *out, vg_error *err)
+{
+    vg_multimode_system sys = {cfg->stats, t->n, t->mode};
+    vg_fft_plan plan;
+    vg_fft_work *w = NULL;
+    vg_status st = vg_fft_plan_make(&sys, v[VG_P_REORG], v[VG_P_TEMPERATURE], v[VG_P_GAP], 0.0,
+                                    1, ODOR_FFT_MAX, &plan, err);
+
+    if (st == VG_OK)
+        st = vg_fft_alloc(plan.n, &w, err);
+    if (st == VG_OK)
+        st = vg_fft_eval(w, &plan, &sys, out, err);
+    vg_fft_free(w);
+    return st;
+}
+
+static vg_status odorant_compute(const vg_config *cfg, const double v[VG_NPARAM],
+                                 const vg_odorant *od, int compare, odorant_result *r,
+                                 vg_error *err)
+{
+    vg_status st = sum_engine(cfg, v, od->light, &r->light, err);
+
+    r->has_heavy = od->heavy != NULL;
+    if (st == VG_OK && r->has_heavy)
+        st = sum_engine(cfg, v, od->heavy, &r->heavy, err);
+    r->fft_diff = 0.0;
+    if (st == VG_OK && compare) {
+        st = fft_engine(cfg, v, od->light, &r->fft, err);
+        if (st == VG_OK && r->fft.trusted)
+            r->fft_diff = fabs(expm1(r->fft.ln_f - r->light.ln_f_total));
+    }
+    if (st != VG_OK)
+        vg_error_prefix(err, "[odorant.%s]: ", od->name);
+    return st;
+}
+
+/* log10 of a rate, or VG_FILL where it is exactly zero. */
+static double rate_log10(double ln_k, int zero)
+{
+    return zero ? VG_FILL : ln_k / VG_LN10;
+}
+
+static void print_text_odorants(const vg_config *cfg, const odorant_result *res, int compare)
+{
+    printf("\nmany-mode odorants (frequency-domain sum engine; 'error' bounds the relative "
+           "error of the rates)\n");
+    printf("  %-16s %5s  %14s %14s %14s %12s %9s\n", "odorant", "modes", "log10 k_total",
+           "log10 k_elast", "log10 k_assist", "log10 ratio", "error");
+    for (size_t i = 0; i < cfg->nodorants; i++) {
+        const vg_multimode_rates *l = &res[i].light;
+        char t[32], e[32], as[32], ra[32];
+        snprintf(t, sizeof t, "%.6f", l->ln_k_total / VG_LN10);
+        snprintf(e, sizeof e, "%.6f", l->ln_k_elastic / VG_LN10);
+        snprintf(as, sizeof as, "%.6f", l->ln_k_assisted / VG_LN10);
+        snprintf(ra, sizeof ra, "%.6f", (l->ln_f_assisted - l->ln_f_elastic) / VG_LN10);
+        printf("  %-16s %5zu  %14s %14s %14s %12s %9.1e\n", cfg->odorants[i].name,
+               cfg->odorants[i].light->n, l->coupling_zero ? "zero rate" : t,
+               l->coupling_zero ? "zero rate" : e,
+               l->coupling_zero || l->assisted_zero ? "zero rate" : as,
+               l->assisted_zero ? "undefined" : ra, l->err_total);
+        if (res[i].has_heavy)
+            printf("  %-16s %5zu  %14s   log10 isotope effect %.6f\n", "  heavy",
+                   cfg->odorants[i].heavy->n,
+                   res[i].heavy.coupling_zero ? "zero rate" : (snprintf(t, sizeof t, "%.6f",
+                   res[i].heavy.ln_k_total / VG_LN10), t),
+                   (l->ln_f_total - res[i].heavy.ln_f_total) / VG_LN10);
+        if (compare && res[i].fft.trusted)
+            printf("  %-16s FFT engine: log10 F_total differs from the sum by %.2e relative "
+                   "(FFT error estimate %.1e)\n", "", res[i].fft_diff, res[i].fft.err);
+        else if (compare)
+            printf("  %-16s FFT engine: the value lies below its dynamic range (no "
+                   "comparison)\n", "");
+    }
+}
+
+static void print_json_odorants(const vg_config *cfg, const odorant_result *res, int compare)
+{
+    printf(",\n  \"odorants\": [");
+    for (size_t i = 0; i < cfg->nodorants; i++) {
+        const vg_multimode_rates *l = &res[i].light;
+        printf("%s\n    {\"name\": ", i ? "," : "");
+        vg_fmt_json_string(stdout, cfg->odorants[i].name);
+        printf(", \"modes\": %zu, \"log10_k_total\": ", cfg->odorants[i].light->n);
+        json_number(rate_log10(l->ln_k_total, l->coupling_zero));
+        printf(", \"log10_k_elastic\": ");
+        json_number(rate_log10(l->ln_k_elastic, l->coupling_zero));
+        printf(", \"log10_k_assisted\": ");
+        json_number(rate_log10(l->ln_k_assisted, l->coupling_zero || l->assisted_zero));
+        printf(", \"log10_ratio\": ");
+        json_number(l->assisted_zero ? VG_FILL : (l->ln_f_assisted - l->ln_f_elastic) / VG_LN10);
+        printf(", \"relative_error_bound\": ");
+        json_number(l->err_total);
+        if (res[i].has_heavy) {
+            printf(", \"heavy\": {\"modes\": %zu, \"log10_k_total\": ",
+                   cfg->odorants[i].heavy->n);
+            json_number(rate_log10(res[i].heavy.ln_k_total, res[i].heavy.coupling_zero));
+            printf(", \"log10_isotope_effect\": ");
+            json_number((l->ln_f_total - res[i].heavy.ln_f_total) / VG_LN10);
+            printf("}");
+        }
+        if (compare) {
+            printf(", \"fft\": {\"trusted\": %s", res[i].fft.trusted ? "true" : "false");
+            if (res[i].fft.trusted) {
+                printf(", \"relative_difference\": ");
+                json_number(res[i].fft_diff);
+                printf(", \"error_estimate\": ");
+                json_number(res[i].fft.err);
+            }
+            printf("}");
+        }
+        printf("}");
+    }
+    printf("\n  ]");
+}
+
+
+static void print_json(const vg_config *cfg, point_result *pr, const odorant_result *odor,
+                       int compare)
 {
     int first = 1;
 
@@ -181,26 +338,43 @@ static void print_json(const vg_config *cfg, point_result *pr)
         printf("%s\"%s\": ", m ? ", " : "", vg_metric_get((vg_metric_id)m)->name);
         json_number(pr->metric[m]);
     }
-    printf("}\n}\n");
+    printf("}");
+    if (odor)
+        print_json_odorants(cfg, odor, compare);
+    printf("\n}\n");
 }
 
 vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err)
 {
     vg_config cfg;
     point_result pr;
+    odorant_result *odor = NULL;
     vg_status st = vg_config_load(&cfg, a->config, a->nset, a->sets, err);
 
     if (st != VG_OK)
         return st;
     st = vg_config_require_scalars(&cfg, "point", 0, err);
+    if (st == VG_OK && a->compare && cfg.nodorants == 0)
+        st = vg_error_set(err, VG_ECONFIG, "%s: 'point --compare' compares the two many-mode "
+                          "engines and needs [odorant.NAME] sections", cfg.path);
     if (st == VG_OK)
         st = compute(&cfg, &pr, err);
+    if (st == VG_OK && cfg.nodorants > 0) {
+        odor = calloc(cfg.nodorants, sizeof *odor);
+        if (!odor)
+            st = vg_error_set(err, VG_ENOMEM, "out of memory for the odorants");
+        for (size_t i = 0; st == VG_OK && i < cfg.nodorants; i++)
+            st = odorant_compute(&cfg, pr.v, &cfg.odorants[i], a->compare, &odor[i], err);
+    }
     if (st == VG_OK) {
         if (a->json)
-            print_json(&cfg, &pr);
+            print_json(&cfg, &pr, odor, a->compare);
         else
             print_text(&cfg, &pr);
+        if (!a->json && odor)
+            print_text_odorants(&cfg, odor, a->compare);
     }
+    free(odor);
     vg_config_free(&cfg);
     return st;
 }

@@ -406,7 +406,9 @@ vg_status vg_cmd_sensitivity(const vg_cmd_args *a, vg_error *err)
 
     if (st != VG_OK)
         return st;
-    st = vg_config_require_scalars(&cfg, "sensitivity", 0, err);
+    st = vg_config_refuse_odorants(&cfg, "sensitivity", err);
+    if (st == VG_OK)
+        st = vg_config_require_scalars(&cfg, "sensitivity", 0, err);
     r = st == VG_OK ? malloc(sizeof *r) : NULL;
     if (st == VG_OK && !r)
         st = vg_error_set(err, VG_ENOMEM, "out of memory");

@@ -367,7 +367,9 @@ vg_status vg_cmd_spectrum(const vg_cmd_args *a, vg_error *err)
         free(s);
         return st;
     }
-    st = need_scalars(&s->cfg, err);
+    st = vg_config_refuse_odorants(&s->cfg, "spectrum", err);
+    if (st == VG_OK)
+        st = need_scalars(&s->cfg, err);
     s->lam = s->cfg.param[VG_P_REORG].v[0];
     s->hw = s->cfg.param[VG_P_MODE].v[0];
     s->V = s->cfg.param[VG_P_COUPLING].v[0];

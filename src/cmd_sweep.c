@@ -398,6 +398,8 @@ vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err)
     int loaded = st == VG_OK;
 
     if (loaded)
+        st = vg_config_refuse_odorants(&cfg, "sweep", err);
+    if (loaded && st == VG_OK)
         st = vg_config_check_maps(&cfg, err);
     /* Each rank reads the config; a rank that cannot must stop them all. */
     st = vg_dist_agree(st, err);

@@ -782,7 +782,9 @@ vg_status vg_cmd_uncertainty(const vg_cmd_args *a, vg_error *err)
     if (st != VG_OK)
         return st;
     r.dir = a->out_dir ? a->out_dir : r.cfg.out_dir;
-    st = pick_analysis(&r, err);
+    st = vg_config_refuse_odorants(&r.cfg, "uncertainty", err);
+    if (st == VG_OK)
+        st = pick_analysis(&r, err);
     if (st == VG_OK)
         st = r.pl.naxes == 0 ? run_sobol(&r, err) : run_map(&r, err);
     vg_config_free(&r.cfg);

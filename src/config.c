@@ -1737,6 +1737,7 @@ typedef struct {
     int line;                       /* the line last handed to libinih */
     int section_line[N_SECTIONS];   /* line of each section header, 0 if none */
     int key_line[N_KEYS];           /* line that set each key; 0 none, -1 --set */
+    int odorant;                    /* the [odorant.NAME] section being read, or -1 */
     vg_status status;               /* first failure */
 } loader;
 
@@ -1762,6 +1763,157 @@ static vg_status check_bytes(span a, vg_error *err)
     return VG_OK;
 }
 
+/* ------------------------------------------------------------------ */
+/* [odorant.NAME] sections.                                           */
+
+static int odorant_index(const vg_config *cfg, span name)
+{
+    for (size_t i = 0; i < cfg->nodorants; i++)
+        if (span_is(name, cfg->odorants[i].name))
+            return (int)i;
+    return -1;
+}
+
+/* A new odorant named name (letters, digits, '_', '-'; at most 31 bytes),
+ * declared at line. */
+static vg_status odorant_header(loader *ld, span name)
+{
+    vg_config *cfg = ld->cfg;
+    vg_odorant *o;
+    shown b;
+    int i;
+
+    if (name.n == 0 || name.n > 31)
+        return vg_error_set(ld->err, VG_ECONFIG, "an odorant name must have 1 to 31 "
+                            "characters (got '[odorant.%s]')", show(name, &b));
+    for (size_t k = 0; k < name.n; k++)
+        if (!isalnum((unsigned char)name.s[k]) && name.s[k] != '_' && name.s[k] != '-')
+            return vg_error_set(ld->err, VG_ECONFIG, "an odorant name may hold letters, digits, "
+                                "'_' and '-' only (got '[odorant.%s]')", show(name, &b));
+    if ((i = odorant_index(cfg, name)) >= 0)
+        return vg_error_set(ld->err, VG_ECONFIG, "section [odorant.%s] appears twice (first at "
+                            "line %d)", cfg->odorants[i].name, cfg->odorants[i].line);
+    if (cfg->nodorants == VG_MAX_ODORANTS)
+        return vg_error_set(ld->err, VG_ECONFIG, "more than %d [odorant.NAME] sections",
+                            VG_MAX_ODORANTS);
+    o = realloc(cfg->odorants, (cfg->nodorants + 1) * sizeof *o);
+    if (!o)
+        return no_memory(ld->err);
+    cfg->odorants = o;
+    o = &cfg->odorants[cfg->nodorants];
+    memset(o, 0, sizeof *o);
+    snprintf(o->name, sizeof o->name, "%.*s", (int)name.n, name.s);
+    o->line = ld->line;
+    ld->odorant = (int)cfg->nodorants++;
+    return VG_OK;
+}
+
+/* modes = PATH or heavy_modes = PATH in odorant od, set at line (-1:
+ * --set).  The tables are read once the whole config is known. */
+static vg_status odorant_key(loader *ld, vg_odorant *od, span key, const char *value, int line)
+{
+    static const char *const names[] = {"modes", "heavy_modes"};
+    span v = span_trim(span_of(value));
+    int heavy = span_is(key, "heavy_modes");
+    int *at = heavy ? &od->heavy_line : &od->modes_line;
+    char *path = heavy ? od->heavy_path : od->modes_path;
+    char h[256];
+    shown b;
+
+    if (!heavy && !span_is(key, "modes"))
+        return vg_error_set(ld->err, VG_ECONFIG, "unknown key '%s' in [odorant.%s] (%s)",
+                            show(key, &b), od->name, hint(h, sizeof h, key, names, 2, "", ""));
+    if (*at > 0 && line > 0)
+        return vg_error_set(ld->err, VG_ECONFIG, "duplicate key '%s' in [odorant.%s] (first set "
+                            "at line %d)", names[heavy], od->name, *at);
+    if (v.n == 0 || v.n >= sizeof od->modes_path)
+        return vg_error_set(ld->err, VG_ECONFIG, "'%s' needs the path of a mode table",
+                            names[heavy]);
+    snprintf(path, sizeof od->modes_path, "%.*s", (int)v.n, v.s);
+    *at = line;
+    return VG_OK;
+}
+
+/* --set odorant.NAME.KEY=VALUE: an odorant the file declares. */
+static vg_status odorant_set(loader *ld, span rest, span value)
+{
+    size_t dot = span_find(rest, ".");
+    span name = span_part(rest, 0, dot), key = span_tail(rest, dot + 1);
+    int i = dot < rest.n ? odorant_index(ld->cfg, name) : -1;
+    char *v;
+    vg_status st;
+    shown b;
+
+    if (i < 0)
+        return vg_error_set(ld->err, VG_ECONFIG, "no section [odorant.%s] in the config to set "
+                            "(write 'odorant.NAME.modes=PATH')", show(name, &b));
+    v = dup_span(value);
+    if (!v)
+        return no_memory(ld->err);
+    st = odorant_key(ld, &ld->cfg->odorants[i], key, v, -1);
+    free(v);
+    return st;
+}
+
+/* The directory part of path ("" for none), to find tables beside it. */
+static void dir_part(const char *path, char *buf, size_t len)
+{
+    const char *slash = strrchr(path, '/');
+
+    snprintf(buf, len, "%.*s", slash ? (int)(slash - path + 1) : 0, path);
+}
+
+/* Read one table: relative paths from the config file's directory. */
+static vg_status odorant_table(loader *ld, const vg_odorant *od, int heavy, vg_modes **out)
+{
+    const char *p = heavy ? od->heavy_path : od->modes_path;
+    int line = heavy ? od->heavy_line : od->modes_line;
+    char dir[1024], full[2100];
+    vg_status st;
+
+    dir_part(ld->path, dir, sizeof dir);
+    snprintf(full, sizeof full, "%s%s", p[0] == '/' ? "" : dir, p);
+    *out = malloc(sizeof **out);
+    if (!*out)
+        return no_memory(ld->err);
+    st = vg_modes_load(full, *out, ld->err);
+    if (st == VG_OK)
+        return VG_OK;
+    if (line < 0)
+        vg_error_prefix(ld->err, "--set odorant.%s.%s: ", od->name,
+                        heavy ? "heavy_modes" : "modes");
+    else
+        vg_error_prefix(ld->err, "%s:%d: ", ld->path, line);
+    return st;
+}
+
+/* Every odorant needs 'modes'; the tables are read here. */
+static vg_status check_odorants(loader *ld)
+{
+    vg_status st = VG_OK;
+
+    for (size_t i = 0; st == VG_OK && i < ld->cfg->nodorants; i++) {
+        vg_odorant *od = &ld->cfg->odorants[i];
+        if (od->modes_line == 0)
+            return vg_error_set(ld->err, VG_ECONFIG, "%s:%d: [odorant.%s] needs 'modes' (the "
+                                "path of its mode table)", ld->path, od->line, od->name);
+        st = odorant_table(ld, od, 0, &od->light);
+        if (st == VG_OK && od->heavy_line != 0)
+            st = odorant_table(ld, od, 1, &od->heavy);
+    }
+    return st;
+}
+
+vg_status vg_config_refuse_odorants(const vg_config *cfg, const char *command, vg_error *err)
+{
+    if (cfg->nodorants == 0)
+        return VG_OK;
+    return vg_error_set(err, VG_ECONFIG, "%s: '%s' does not take many-mode odorants yet "
+                        "([odorant.%s]; only 'point' does): remove the [odorant.NAME] sections "
+                        "to use the single mode of [parameters]", cfg->path, command,
+                        cfg->odorants[0].name);
+}
+
 /* "[name]", optionally followed by a comment; a known section, once. */
 static vg_status check_header(loader *ld, span t)
 {
@@ -1778,6 +1930,10 @@ static vg_status check_header(loader *ld, span t)
     if (after.n > 0 && after.s[0] != ';' && after.s[0] != '#')
         return vg_error_set(ld->err, VG_ECONFIG, "unexpected '%s' after the section header "
                             "(only a comment may follow)", show(after, &b));
+    ld->odorant = -1;
+    if (span_find(name, ".") < name.n && span_is(span_part(name, 0, span_find(name, ".")),
+                                                 "odorant"))
+        return odorant_header(ld, span_tail(name, span_find(name, ".") + 1));
     sec = find_section(name);
     if (sec < 0)
         return unknown_section(name, ld->err);
@@ -1873,6 +2029,15 @@ static int on_pair(void *user, const char *section, const char *name, const char
     int k = sec < 0 ? -1 : find_key(sec, key);
     vg_status st = VG_OK;
 
+    if (ld->odorant >= 0 && key.n > 0) {
+        st = odorant_key(ld, &ld->cfg->odorants[ld->odorant], key, value ? value : "",
+                         ld->line);
+        if (st == VG_OK)
+            return 1;
+        ld->status = st;
+        vg_error_prefix(ld->err, "%s:%d: ", ld->path, ld->line);
+        return 0;
+    }
     if (key.n == 0)
         st = vg_error_set(ld->err, VG_ECONFIG, "missing key before '='");
     else if (k < 0)
@@ -2007,6 +2172,8 @@ static vg_status apply_set(loader *ld, const char *arg)
     }
     if (eq == all.n || dot == name.n)
         st = malformed_set(name, ld->err);
+    else if (span_is(span_part(name, 0, dot), "odorant"))
+        st = odorant_set(ld, span_tail(name, dot + 1), span_trim(span_tail(all, eq + 1)));
     else
         st = apply_pair(ld, span_part(name, 0, dot), span_tail(name, dot + 1),
                         span_trim(span_tail(all, eq + 1)));
@@ -2358,6 +2525,8 @@ static vg_status finish(loader *ld)
         if (ld->cfg->param[p].n == 0)
             st = use_default(ld, (vg_param_id)p);
     if (st == VG_OK)
+        st = check_odorants(ld);
+    if (st == VG_OK)
         st = check_isotope(ld);
     if (st == VG_OK)
         st = check_metric_needs(ld);
@@ -2463,6 +2632,7 @@ static vg_status load(vg_config *cfg, const char *name, const char *text, int fr
     ld.cfg = cfg;
     ld.err = err;
     ld.path = name;
+    ld.odorant = -1;
     st = config_init(cfg, name, nset, sets, err);
     if (st == VG_OK && from_file)
         st = read_file(name, &cfg->text, &len, err);
@@ -2503,6 +2673,11 @@ void vg_config_free(vg_config *cfg)
     free(cfg->out_dir);
     for (int p = 0; p < VG_NPARAM; p++)
         free(cfg->param[p].v);
+    for (size_t i = 0; i < cfg->nodorants; i++) {
+        free(cfg->odorants[i].light);
+        free(cfg->odorants[i].heavy);
+    }
+    free(cfg->odorants);
     memset(cfg, 0, sizeof *cfg);
 }
 

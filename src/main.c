@@ -84,6 +84,7 @@ static void usage(FILE *f)
           "                         checkpoint it kept in the output directory (give\n"
           "                         the same CONFIG, --out and --set)\n"
           "      --json             point, sensitivity, uncertainty: print JSON instead of a table\n"
+          "      --compare          point: many-mode odorants by both engines (sum and FFT)\n"
           "  -h, --help             show this help and exit\n"
           "  -V, --version          show version information and exit\n"
           "\n"
@@ -203,7 +204,8 @@ static int parse_options(int argc, char **argv, vg_cmd_args *a)
         {"set", required_argument, NULL, 's'},  {"quiet", no_argument, NULL, 'q'},
         {"json", no_argument, NULL, 'J'},       {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},    {"resume", no_argument, NULL, 'R'},
-        {"chunk", required_argument, NULL, 'C'}, {NULL, 0, NULL, 0}};
+        {"chunk", required_argument, NULL, 'C'}, {"compare", no_argument, NULL, 'K'},
+        {NULL, 0, NULL, 0}};
     int c;
 
     opterr = 0;
@@ -218,6 +220,7 @@ static int parse_options(int argc, char **argv, vg_cmd_args *a)
         case 's': a->sets[a->nset++] = optarg; break;
         case 'q': a->quiet = 1; break;
         case 'J': a->json = 1; break;
+        case 'K': a->compare = 1; break;
         case 'R': a->resume = 1; break;
         case 'C':
             if (parse_chunk(optarg, &a->chunk) != 0)
