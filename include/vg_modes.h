@@ -138,7 +138,8 @@ vg_status vg_modes_parse(const char *name_for_messages, const char *text, size_t
 /* Read the file at path and parse it, messages prefixed "PATH:".  File
  * errors (VG_ECONFIG): "PATH: cannot open mode table: REASON",
  * "PATH: cannot read mode table: REASON" (REASON from strerror, lower
- * case), "PATH: the mode table is larger than the limit of 1048576 bytes";
+ * case; "not a regular file" for a FIFO, terminal or device, which is
+ * refused before it is opened), "PATH: the mode table is larger than the limit of 1048576 bytes";
  * VG_ENOMEM "out of memory" if the 1 MiB read buffer cannot be had. */
 vg_status vg_modes_load(const char *path, vg_modes *out, vg_error *err);
 

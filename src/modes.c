@@ -14,6 +14,7 @@
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <sys/stat.h>
 #include <string.h>
 #include <strings.h>
 
@@ -449,13 +450,20 @@ vg_status vg_modes_parse(const char *name_for_messages, const char *text, size_t
 
 vg_status vg_modes_load(const char *path, vg_modes *out, vg_error *err)
 {
-    FILE *f = fopen(path, "rb");
+    struct stat sb;
+    FILE *f;
     char *buf;
     size_t n;
     vg_status st;
     int e;
 
     out->n = 0;
+    /* a FIFO, a terminal or a device would block or never end: tables are
+     * files (a directory fails below, on reading, with its own reason) */
+    if (stat(path, &sb) == 0 && !S_ISREG(sb.st_mode) && !S_ISDIR(sb.st_mode))
+        return vg_error_set(err, VG_ECONFIG, "%s: cannot read mode table: not a regular file",
+                            path);
+    f = fopen(path, "rb");
     if (!f)
         return vg_text_file_error(err, path, "cannot open mode table", errno);
     buf = malloc(VG_MODES_TEXT_MAX + 1);

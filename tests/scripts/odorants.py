@@ -108,6 +108,10 @@ def main():
                 os.path.join(tmp, "one.csv"))
         report(r.returncode == 0 and json.loads(r.stdout)["odorants"][0]["modes"] == 1,
                "--set odorant.velarone.modes=PATH replaces the table", r.stderr.strip())
+        r = subprocess.run([BINARY, "point", DEMO, "--set", "odorant.velarone.modes=/dev/stdin"],
+                           input="", capture_output=True, text=True, timeout=60)
+        report(r.returncode == 3 and "not a regular file" in r.stderr,
+               "a table that is a pipe is refused, not read (status 3)", r.stderr.strip())
         r = run("point", DEMO, "--set", "odorant.nosuch.modes=x.csv")
         report(r.returncode == 3 and "no section [odorant.nosuch]" in r.stderr,
                "--set on an odorant the file does not declare: status 3", r.stderr.strip())
