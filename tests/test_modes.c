@@ -8,7 +8,7 @@
  * Reference values are written out here with their sources; none is copied
  * from the program's output.
  */
-#define _POSIX_C_SOURCE 200809L
+#define _XOPEN_SOURCE 700 /* POSIX 2008 and nftw, for testutil.h */
 
 #include <float.h>
 #include <math.h>
@@ -23,6 +23,8 @@
 #include <unistd.h>
 
 #include <cmocka.h>
+
+#include "testutil.h"
 
 #include "vg_modes.h"
 
@@ -61,15 +63,7 @@ static void load_data(const char *name)
 
 static char *write_file(const char *name, const char *text, size_t len)
 {
-    static char path[4096];
-    FILE *f;
-
-    snprintf(path, sizeof path, "%s/%s", tmpdir, name);
-    f = fopen(path, "wb");
-    assert_non_null(f);
-    assert_int_equal(fwrite(text, 1, len, f), len);
-    assert_int_equal(fclose(f), 0);
-    return path;
+    return test_write_file(tmpdir, name, text, len);
 }
 
 static int setup(void **state)

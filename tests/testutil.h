@@ -46,6 +46,22 @@ static inline int test_remove_tree(const char *root)
     return nftw(root, test_remove_entry, 16, FTW_DEPTH | FTW_PHYS);
 }
 
+/* Write len bytes of text to dir/name (created or replaced); returns the
+ * path, in a static buffer that the next call reuses. */
+static inline char *test_write_file(const char *dir, const char *name, const char *text,
+                                    size_t len)
+{
+    static char path[4096];
+    FILE *f;
+
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    f = fopen(path, "wb");
+    assert_non_null(f);
+    assert_int_equal(fwrite(text, 1, len, f), len);
+    assert_int_equal(fclose(f), 0);
+    return path;
+}
+
 /* The whole file, NUL-terminated (the NUL not counted in *len, which may be
  * NULL); the caller frees it. */
 static inline char *test_read_file(const char *path, size_t *len)
