@@ -14,6 +14,7 @@
 #include "vg_metrics.h"
 #include "vg_prior.h"
 #include "vg_modes.h"
+#include "vg_validity.h"
 
 /* The six parameters, in CSV column order. */
 typedef enum {
@@ -115,11 +116,31 @@ typedef struct {
     int line;                 /* line of the section header */
     int modes_line;           /* line of 'modes' (0: not given, -1: --set) */
     int heavy_line;           /* line of 'heavy_modes' (0: not given) */
+    int substitute_line;      /* line of 'substitute' (0: not given) */
     char modes_path[1024];    /* as written (relative to the config's directory) */
     char heavy_path[1024];
+    char substitute[VG_MODES_LABEL_SIZE]; /* glob on the mode labels (fnmatch) */
+    size_t substituted;       /* modes the substitute pattern matched */
     vg_modes *light;          /* owned; NULL until loaded */
-    vg_modes *heavy;          /* owned; NULL without 'heavy_modes' */
+    vg_modes *heavy;          /* owned; NULL without 'heavy_modes' or 'substitute';
+                                 with 'substitute': the light table with the
+                                 [isotope] rule applied to the matched modes */
 } vg_odorant;
+
+/* [model] engine: which many-mode engine gives an odorant's rates. */
+typedef enum {
+    VG_ENGINE_SUM = 0,        /* frequency-domain lattice sum (vg_multimode.h) */
+    VG_ENGINE_FFT = 1         /* time-domain FFT (vg_fft.h): the total rate only */
+} vg_engine;
+
+/* [validity]: which criteria of the golden-rule picture point evaluates
+ * (docs/theory.md section 6), their thresholds and inputs. */
+typedef struct {
+    int on;                   /* 1 if [validity] is given (even with criteria = none) */
+    vg_valid_settings s;      /* enabled mask, thresholds, nuclear frequency (0: the mode's) */
+    double tau_l_ps;          /* relaxation_time, ps; 0 if not given */
+    double t1_ps;             /* mode_lifetime, ps; 0 if not given */
+} vg_validity;
 
 typedef struct {
     char *path;               /* config file path as given (owned) */
@@ -130,6 +151,13 @@ typedef struct {
     vg_param param[VG_NPARAM];
     vg_mode_statistics stats; /* [model] mode_statistics */
     double tolerance;         /* [model] truncation tolerance, default 1e-12 */
+    vg_engine engine;         /* [model] engine, default VG_ENGINE_SUM (odorants only) */
+    int odorant;              /* [model] odorant: index of the odorant a sweep maps in
+                                 place of the single mode, -1: the single mode */
+    int against;              /* [model] against: index of the odorant the discrimination
+                                 compares it with, -1: none */
+    char odorant_name[32], against_name[32]; /* as written, until resolved */
+    int odorant_line, against_line;          /* their lines (0: not given, -1: --set) */
     char *out_dir;            /* [output] directory (owned) */
     unsigned formats;         /* VG_FMT_* bits, default both */
     int metric_on[VG_N_METRICS]; /* which metrics to store (default all) */
@@ -138,9 +166,25 @@ typedef struct {
     vg_isotope isotope;       /* [isotope] */
     vg_require_set feasibility; /* [feasibility] require = ... lines */
     vg_uncertainty uncertainty; /* [uncertainty] */
+    vg_validity validity;     /* [validity] */
     size_t nodorants;         /* [odorant.NAME] sections */
     vg_odorant *odorants;     /* nodorants records (owned) */
 } vg_config;
+
+/* The odorant a sweep maps ([model] odorant), or NULL: the single mode.
+ * NULL also for a record filled by hand (odorant 0, no odorants). */
+static inline const vg_odorant *vg_config_mapped(const vg_config *cfg)
+{
+    return cfg->odorant >= 0 && (size_t)cfg->odorant < cfg->nodorants
+           ? &cfg->odorants[cfg->odorant] : NULL;
+}
+
+/* The odorant the discrimination compares it with ([model] against), or NULL. */
+static inline const vg_odorant *vg_config_against(const vg_config *cfg)
+{
+    return vg_config_mapped(cfg) && cfg->against >= 0 && (size_t)cfg->against < cfg->nodorants
+           && cfg->against != cfg->odorant ? &cfg->odorants[cfg->against] : NULL;
+}
 
 /* Parse path, apply the nset overrides "section.key=value" in order, and
  * validate.  On failure err->msg is "FILE:LINE: what is wrong ..." (or
@@ -149,7 +193,9 @@ vg_status vg_config_load(vg_config *cfg, const char *path,
                          size_t nset, const char *const *sets, vg_error *err);
 
 /* Same as vg_config_load for a config held in memory (the text stored in a
- * data file): name is used in messages in place of a file path. */
+ * data file): name is used in messages in place of a file path.  Mode
+ * tables are not read: every odorant's light and heavy stay NULL (what
+ * reads such a config, the figures of a data file, does not need them). */
 vg_status vg_config_load_text(vg_config *cfg, const char *name, const char *text,
                               size_t nset, const char *const *sets, vg_error *err);
 
@@ -161,8 +207,16 @@ vg_status vg_config_require_scalars(const vg_config *cfg, const char *command, i
                                     vg_error *err);
 
 /* VG_ECONFIG "FILE: 'COMMAND' does not take many-mode odorants yet ..."
- * when cfg has [odorant.NAME] sections (only 'point' uses them so far). */
+ * when cfg has [odorant.NAME] sections (only 'point' uses them, and
+ * 'sweep' and 'check' with [model] odorant, which call it only without). */
 vg_status vg_config_refuse_odorants(const vg_config *cfg, const char *command, vg_error *err);
+
+/* For the commands that map a grid (sweep, check): without [model] odorant
+ * the refusal of vg_config_refuse_odorants; with it, VG_ECONFIG for
+ * 'engine = fft' (the maps need the elastic and assisted parts, which only
+ * the sum engine gives); VG_OK otherwise. */
+vg_status vg_config_check_mapped_odorant(const vg_config *cfg, const char *command,
+                                         vg_error *err);
 
 /* What metric m needs that cfg lacks ("an [isotope] section", ...), or
  * NULL when cfg can compute it. */

@@ -31,11 +31,31 @@ vg_status vg_evaluate(const vg_config *cfg, const double v[VG_NPARAM], vg_eval_r
 void vg_isotope_heavy(const vg_isotope *iso, double S, double mode_meV, double *S_heavy,
                       double *mode_heavy_meV);
 
+/* The heavy isotopologue of a many-mode table under iso's rule: *heavy is
+ * a copy of *light in which every mode whose label matches the shell-style
+ * glob pattern (fnmatch(3), no flags; "C-H stretch*") has its mode quantum
+ * and Huang-Rhys factor replaced by vg_isotope_heavy's; the lifetimes,
+ * labels and every other mode are copied unchanged.  Returns the number of
+ * modes matched (0: *heavy equals *light).  No range checks: the caller
+ * decides what a heavy mode outside the table's accepted ranges means. */
+size_t vg_isotope_heavy_modes(const vg_isotope *iso, const char *pattern, const vg_modes *light,
+                              vg_modes *heavy);
+
 /* Reduced mass m1 m2 / (m1 + m2) (any mass unit). */
 double vg_reduced_mass(double m1, double m2);
 
 /* omega_light / omega_heavy of a harmonic oscillator from the reduced-mass
  * ratio mu_heavy / mu_light (> 0): sqrt(mu_heavy / mu_light). */
 double vg_isotope_frequency_ratio(double reduced_mass_ratio);
+
+/* The valid metric of one point (the same for every command): VG_FILL
+ * without [validity] criteria, else 1 where every enabled criterion holds
+ * and 0 where one fails, the total rate (for the re-thermalisation
+ * criterion) from r.  mode_meV and t1_ps are the single mode's (the mode
+ * and mode_lifetime) or a table's (vg_valid_modes_inputs).  VG_ENUMERIC
+ * from vg_valid_evaluate. */
+vg_status vg_evaluate_valid(const vg_config *cfg, double coupling_meV, double reorg_meV,
+                            double temperature_K, double mode_meV, double t1_ps,
+                            const vg_rates *r, double *valid, vg_error *err);
 
 #endif

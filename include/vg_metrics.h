@@ -25,12 +25,18 @@ typedef enum {
     VG_M_ISOTOPE_EFFECT,        /* [isotope] only: k_total light / heavy */
     VG_M_LOG10_ISOTOPE_EFFECT,  /* [isotope] only */
     VG_M_FEASIBLE,              /* [feasibility] only: 1 where every condition holds, else 0 */
+    VG_M_DISCRIMINATION,        /* [model] against only: k_total of the odorant over
+                                   that of the other one */
+    VG_M_LOG10_DISCRIMINATION,  /* [model] against only */
+    VG_M_VALID,                 /* [validity] criteria only: 1 where all hold, else 0 */
     VG_N_METRICS
 } vg_metric_id;
 
 /* Which config section a metric needs (0: none). */
 #define VG_NEEDS_ISOTOPE 1
 #define VG_NEEDS_FEASIBILITY 2
+#define VG_NEEDS_DISCRIMINATION 4
+#define VG_NEEDS_VALIDITY 8
 
 /* NetCDF's default fill for doubles (NC_FILL_DOUBLE); never a valid metric. */
 #define VG_FILL 9.9692099683868690e+36
@@ -82,5 +88,13 @@ void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS]);
  * [feasibility]). */
 void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
                         const vg_require_set *req, double out[VG_N_METRICS]);
+
+/* The same with the rates of the odorant compared against (other may be
+ * NULL: no discrimination) and the verdict of the validity criteria (valid
+ * 1 or 0, or VG_FILL where none is evaluated).  The conditions of req see
+ * every metric, these included. */
+void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
+                             const vg_rates *other, double valid,
+                             const vg_require_set *req, double out[VG_N_METRICS]);
 
 #endif

@@ -26,6 +26,9 @@
 #ifndef VG_VALIDITY_H
 #define VG_VALIDITY_H
 
+#include <stddef.h>
+
+#include "vg_multimode.h"
 #include "vg_status.h"
 
 /* The criteria, as bits of a mask; VG_VALID_IDX_* are the bit numbers. */
@@ -134,6 +137,14 @@ vg_status vg_valid_resolved(const vg_valid_settings *s, double coupling_meV, dou
 /* k_total T_1 (T_1 in ps, so k_total 1e-12 T_1). */
 vg_status vg_valid_rethermal(const vg_valid_settings *s, double k_total, double t1_ps,
                              double *value, int *holds, vg_error *err);
+
+/* The mode quantum and lifetime the criteria use for a many-mode odorant
+ * (docs/config.md, [validity]): the lowest quantum among the modes with
+ * S > 0 (the closest channel spacing; the lowest of all if none has S > 0)
+ * and the longest lifetime among them, a mode without one taking
+ * t1_default (ps).  n >= 1. */
+void vg_valid_modes_inputs(const vg_multimode_mode *modes, size_t n, double t1_default,
+                           double *mode_meV, double *t1_ps);
 
 /* Every criterion enabled in s at point p.  On VG_ENUMERIC (bad settings
  * or an input an enabled criterion needs), *r is zeroed with worst = -1. */

@@ -87,7 +87,7 @@ void vg_ckpt_digest(const vg_ckpt_inputs *in, uint64_t d[VG_CKPT_NPARTS])
 
     h = fold_u64(fold_u64(h, VG_N_METRICS), VG_CKPT_POINT_BYTES);
     d[VG_CKPT_PART_VERSION] = fold_str(h, in->version);
-    d[VG_CKPT_PART_TEXT] = fold_str(VG_CKPT_FNV_BASIS, in->config_text);
+    d[VG_CKPT_PART_TEXT] = fold_u64(fold_str(VG_CKPT_FNV_BASIS, in->config_text), in->tables);
     d[VG_CKPT_PART_SETS] = fold_str(VG_CKPT_FNV_BASIS, in->overrides);
     h = fold_u64(fold_u64(VG_CKPT_FNV_BASIS, in->npoints), in->chunk);
     h = fold_u64(h, in->formats);
@@ -605,7 +605,7 @@ static const char *difference(const uint64_t *a, const uint64_t *b)
     if (a[VG_CKPT_PART_VERSION] != b[VG_CKPT_PART_VERSION])
         return "another version of vibrogate made it";
     if (a[VG_CKPT_PART_TEXT] != b[VG_CKPT_PART_TEXT])
-        return "the config text differs";
+        return "the config text (or a mode table it names) differs";
     if (a[VG_CKPT_PART_SETS] != b[VG_CKPT_PART_SETS])
         return "the --set options differ";
     if (a[VG_CKPT_PART_GRID] != b[VG_CKPT_PART_GRID])

@@ -53,12 +53,14 @@ typedef struct {
     size_t chunk;            /* points per chunk */
     unsigned formats;        /* VG_FMT_* bits */
     const int *metric_on;    /* [VG_N_METRICS], 0 or 1 */
+    uint64_t tables;         /* digest of the odorants' mode tables as read (their
+                                files may change between runs), 0 without */
 } vg_ckpt_inputs;
 
 /* The digest in parts, so that a refusal can say what differs. */
 enum {
     VG_CKPT_PART_VERSION,    /* program version and checkpoint layout */
-    VG_CKPT_PART_TEXT,       /* config text */
+    VG_CKPT_PART_TEXT,       /* config text and the mode tables it names */
     VG_CKPT_PART_SETS,       /* --set overrides */
     VG_CKPT_PART_GRID,       /* points, chunk, formats, metrics */
     VG_CKPT_NPARTS

@@ -111,7 +111,7 @@ vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err)
 
     if (st != VG_OK)
         return st;
-    st = vg_config_refuse_odorants(&cfg, "check", err);
+    st = vg_config_check_mapped_odorant(&cfg, "check", err);
     if (st == VG_OK)
         st = vg_config_check_maps(&cfg, err);
     if (st != VG_OK) {

@@ -15,6 +15,7 @@
 #include "vg_fft.h"
 #include "vg_multimode.h"
 #include "vg_metrics.h"
+#include "vg_validity.h"
 
 /* Channels listed: n = 0 always, others carrying at least this share of
  * the total rate. */
@@ -147,10 +148,15 @@ static void print_json_channel(point_result *pr, long n, int first)
 
 /* One odorant's results at the operating point. */
 typedef struct {
-    vg_multimode_rates light, heavy;
+    vg_multimode_rates light, heavy; /* sum engine: engine = sum, or --compare */
+    int has_sum;
     int has_heavy;
-    vg_fft_point fft;          /* --compare: the FFT engine's F_total */
-    double fft_diff;           /* |F_fft / F_sum - 1| where the FFT trusts its value */
+    vg_fft_point fft, fft_heavy;     /* FFT engine: engine = fft, or --compare */
+    int has_fft;
+    double fft_diff;                 /* |F_fft / F_sum - 1| where the FFT trusts its value */
+    double valid_mode, valid_t1;     /* hbar omega (meV) and T1 (ps) of the criteria */
+    int valid_k_upper;               /* 1: k_total is the FFT's upper estimate */
+    vg_valid_report valid;
 } odorant_result;
 
 /* Transform lengths and lattice terms the point command allows one odorant
@@ -196,21 +202,64 @@ static vg_status fft_engine(const vg_config *cfg, const double v[VG_NPARAM], con
     return st;
 }
 
+/* ln of the golden-rule prefactor (2 pi / hbar) V^2, so that ln k = ln F +
+ * this for F in meV^-1 (hbar in meV s, vg_const.h); V > 0. */
+static double ln_prefactor(double coupling_meV)
+{
+    return log(2.0 * VG_PI / (VG_HBAR_EVS * VG_MEV_PER_EV)) + 2.0 * log(coupling_meV);
+}
+
+/* Every criterion [validity] enables, at v with mode, T1 and the total
+ * rate (exp(ln_k), or 0 for a zero rate). */
+static vg_status validity_eval(const vg_config *cfg, const double v[VG_NPARAM], double mode,
+                               double t1, double ln_k, int zero, vg_valid_report *r,
+                               vg_error *err)
+{
+    vg_valid_point p = {v[VG_P_COUPLING], v[VG_P_REORG], mode, v[VG_P_TEMPERATURE],
+                        cfg->validity.tau_l_ps, t1, zero ? 0.0 : exp(ln_k)};
+
+    return vg_valid_evaluate(&cfg->validity.s, &p, r, err);
+}
+
+static vg_status odorant_validity(const vg_config *cfg, const double v[VG_NPARAM],
+                                  const vg_odorant *od, odorant_result *r, vg_error *err)
+{
+    double ln_k = r->light.ln_k_total;
+    int zero = r->light.coupling_zero;
+
+    vg_valid_modes_inputs(od->light->mode, od->light->n, cfg->validity.t1_ps, &r->valid_mode,
+                          &r->valid_t1);
+    if (cfg->engine == VG_ENGINE_FFT) {
+        zero = v[VG_P_COUPLING] == 0.0;
+        ln_k = zero ? 0.0 : r->fft.ln_f + ln_prefactor(v[VG_P_COUPLING]);
+        r->valid_k_upper = !r->fft.trusted;
+    }
+    return validity_eval(cfg, v, r->valid_mode, r->valid_t1, ln_k, zero, &r->valid, err);
+}
+
 static vg_status odorant_compute(const vg_config *cfg, const double v[VG_NPARAM],
                                  const vg_odorant *od, int compare, odorant_result *r,
                                  vg_error *err)
 {
-    vg_status st = sum_engine(cfg, v, od->light, &r->light, err);
+    int fft = cfg->engine == VG_ENGINE_FFT;
+    vg_status st = VG_OK;
 
     r->has_heavy = od->heavy != NULL;
-    if (st == VG_OK && r->has_heavy)
+    r->has_sum = !fft || compare;
+    r->has_fft = fft || compare;
+    if (r->has_sum)
+        st = sum_engine(cfg, v, od->light, &r->light, err);
+    if (st == VG_OK && r->has_heavy && !fft)
         st = sum_engine(cfg, v, od->heavy, &r->heavy, err);
-    r->fft_diff = 0.0;
-    if (st == VG_OK && compare) {
+    if (st == VG_OK && r->has_fft)
         st = fft_engine(cfg, v, od->light, &r->fft, err);
-        if (st == VG_OK && r->fft.trusted)
-            r->fft_diff = fabs(expm1(r->fft.ln_f - r->light.ln_f_total));
-    }
+    if (st == VG_OK && r->has_heavy && fft)
+        st = fft_engine(cfg, v, od->heavy, &r->fft_heavy, err);
+    r->fft_diff = 0.0;
+    if (st == VG_OK && compare && r->fft.trusted)
+        r->fft_diff = fabs(expm1(r->fft.ln_f - r->light.ln_f_total));
+    if (st == VG_OK && cfg->validity.s.enabled)
+        st = odorant_validity(cfg, v, od, r, err);
     if (st != VG_OK)
         vg_error_prefix(err, "[odorant.%s]: ", od->name);
     return st;
@@ -222,8 +271,75 @@ static double rate_log10(double ln_k, int zero)
     return zero ? VG_FILL : ln_k / VG_LN10;
 }
 
-static void print_text_odorants(const vg_config *cfg, const odorant_result *res, int compare)
+/* log10 k_total of an FFT result: VG_FILL at zero coupling or below the
+ * transform's dynamic range. */
+static double fft_log10_k(const vg_fft_point *f, double coupling)
 {
+    if (coupling == 0.0 || !f->trusted)
+        return VG_FILL;
+    return (f->ln_f + ln_prefactor(coupling)) / VG_LN10;
+}
+
+/* log10 of the isotope effect from the two FFT totals, VG_FILL unless both
+ * are trusted. */
+static double fft_log10_ie(const odorant_result *r)
+{
+    if (!r->fft.trusted || !r->fft_heavy.trusted)
+        return VG_FILL;
+    return (r->fft.ln_f - r->fft_heavy.ln_f) / VG_LN10;
+}
+
+/* "heavy (rule: 'C-H stretch*', 6 modes)" or "heavy". */
+static const char *heavy_title(const vg_odorant *od, char *buf, size_t size)
+{
+    if (od->substitute_line == 0)
+        return "  heavy";
+    snprintf(buf, size, "  heavy, [isotope] rule on %zu mode%s matching '%s'", od->substituted,
+             od->substituted == 1 ? "" : "s", od->substitute);
+    return buf;
+}
+
+static void print_text_fft_row(const char *name, size_t modes, const vg_fft_point *f,
+                               double coupling)
+{
+    double l = fft_log10_k(f, coupling);
+
+    if (coupling == 0.0 && f->trusted)
+        printf("  %-16s %5zu  %14s %9.1e\n", name, modes, "zero rate", f->err);
+    else if (l == VG_FILL)
+        printf("  %-16s %5zu  %s\n", name, modes, "below the FFT's dynamic range (no value)");
+    else
+        printf("  %-16s %5zu  %14.6f %9.1e\n", name, modes, l, f->err);
+}
+
+static void print_text_fft(const vg_config *cfg, const odorant_result *res, double coupling)
+{
+    char h[160];
+
+    printf("\nmany-mode odorants (time-domain FFT engine: the total rate only, the transform "
+           "does not separate\nthe channels; 'error' is its estimated relative error)\n");
+    printf("  %-16s %5s  %14s %9s\n", "odorant", "modes", "log10 k_total", "error");
+    for (size_t i = 0; i < cfg->nodorants; i++) {
+        const vg_odorant *od = &cfg->odorants[i];
+        print_text_fft_row(od->name, od->light->n, &res[i].fft, coupling);
+        if (!res[i].has_heavy)
+            continue;
+        if (od->substitute_line)
+            printf("  %s\n", heavy_title(od, h, sizeof h));
+        print_text_fft_row(od->substitute_line ? "" : "  heavy", od->heavy->n,
+                           &res[i].fft_heavy, coupling);
+        if (fft_log10_ie(&res[i]) == VG_FILL)
+            printf("  %-16s log10 isotope effect undefined (a total lies below the FFT's "
+                   "dynamic range)\n", "");
+        else
+            printf("  %-16s log10 isotope effect %.6f\n", "", fft_log10_ie(&res[i]));
+    }
+}
+
+static void print_text_sum(const vg_config *cfg, const odorant_result *res)
+{
+    char h[160];
+
     printf("\nmany-mode odorants (frequency-domain sum engine; 'error' bounds the relative "
            "error of the rates)\n");
     printf("  %-16s %5s  %14s %14s %14s %12s %9s\n", "odorant", "modes", "log10 k_total",
@@ -240,64 +356,228 @@ static void print_text_odorants(const vg_config *cfg, const odorant_result *res,
                l->coupling_zero ? "zero rate" : e,
                l->coupling_zero || l->assisted_zero ? "zero rate" : as,
                l->assisted_zero ? "undefined" : ra, l->err_total);
-        if (res[i].has_heavy)
-            printf("  %-16s %5zu  %14s   log10 isotope effect %.6f\n", "  heavy",
+        if (res[i].has_heavy) {
+            if (cfg->odorants[i].substitute_line)
+                printf("  %s\n", heavy_title(&cfg->odorants[i], h, sizeof h));
+            printf("  %-16s %5zu  %14s   log10 isotope effect %.6f\n",
+                   cfg->odorants[i].substitute_line ? "" : "  heavy",
                    cfg->odorants[i].heavy->n,
                    res[i].heavy.coupling_zero ? "zero rate" : (snprintf(t, sizeof t, "%.6f",
                    res[i].heavy.ln_k_total / VG_LN10), t),
                    (l->ln_f_total - res[i].heavy.ln_f_total) / VG_LN10);
-        if (compare && res[i].fft.trusted)
-            printf("  %-16s FFT engine: log10 F_total differs from the sum by %.2e relative "
-                   "(FFT error estimate %.1e)\n", "", res[i].fft_diff, res[i].fft.err);
-        else if (compare)
-            printf("  %-16s FFT engine: the value lies below its dynamic range (no "
-                   "comparison)\n", "");
+        }
     }
 }
 
-static void print_json_odorants(const vg_config *cfg, const odorant_result *res, int compare)
+static void print_text_compare(const vg_config *cfg, const odorant_result *res)
 {
-    printf(",\n  \"odorants\": [");
+    printf("\nengines compared (--compare), total rate of the light form\n");
     for (size_t i = 0; i < cfg->nodorants; i++) {
-        const vg_multimode_rates *l = &res[i].light;
+        if (res[i].fft.trusted)
+            printf("  %-16s FFT against sum: F_total differs by %.2e relative (FFT error "
+                   "estimate %.1e, sum error bound %.1e)\n", cfg->odorants[i].name,
+                   res[i].fft_diff, res[i].fft.err, res[i].light.err_total);
+        else
+            printf("  %-16s FFT engine: the value lies below its dynamic range (no "
+                   "comparison)\n", cfg->odorants[i].name);
+    }
+}
+
+static void print_text_odorants(const vg_config *cfg, const odorant_result *res, int compare,
+                                double coupling)
+{
+    if (cfg->engine == VG_ENGINE_FFT)
+        print_text_fft(cfg, res, coupling);
+    else
+        print_text_sum(cfg, res);
+    if (compare)
+        print_text_compare(cfg, res);
+}
+
+/* The threshold of criterion idx. */
+static double valid_threshold(const vg_valid_settings *s, int idx)
+{
+    const double t[VG_VALID_NCRIT] = {s->nonadiabatic_max, s->solvent_max, s->resolved_max,
+                                      s->rethermal_max};
+    return t[idx];
+}
+
+/* nu_n in s^-1 as the nonadiabatic criterion uses it at mode (meV). */
+static double nuclear_frequency(const vg_config *cfg, double mode)
+{
+    double nu = cfg->validity.s.nuclear_frequency;
+
+    return nu > 0.0 ? nu : mode / VG_MEV_PER_EV / (VG_SI_H / VG_SI_E);
+}
+
+static void print_text_validity_report(const vg_config *cfg, const vg_valid_report *r)
+{
+    static const char *const what[VG_VALID_NCRIT] = {"nu_el / nu_n", "kappa_A",
+                                                     "max(V/hbar omega, V/k_B T)",
+                                                     "k_total T1"};
+    int nfail = 0;
+
+    for (int c = 0; c < VG_VALID_NCRIT; c++)
+        if (r->evaluated & (1u << c))
+            printf("    %-13s %-27s %11.4e  threshold %-8g  %s\n", vg_valid_name(c), what[c],
+                   r->value[c], valid_threshold(&cfg->validity.s, c),
+                   r->failed & (1u << c) ? "fails" : "holds");
+    printf("    ");
+    for (int c = 0; c < VG_VALID_NCRIT; c++)
+        if (r->failed & (1u << c))
+            printf("%s%s", nfail++ ? ", " : "failing: ", vg_valid_name(c));
+    printf("%s\n", nfail ? "" : "every criterion evaluated holds");
+}
+
+static void print_text_validity(const vg_config *cfg, const point_result *pr,
+                                const vg_valid_report *single, const odorant_result *odor)
+{
+    printf("\nvalidity of the golden-rule picture (docs/theory.md section 6; a criterion holds "
+           "where its value\nis below its threshold)\n");
+    printf("  single mode (hbar omega %.10g meV, nu_n %.4e s^-1%s)\n", pr->v[VG_P_MODE],
+           nuclear_frequency(cfg, pr->v[VG_P_MODE]),
+           cfg->validity.s.enabled & VG_VALID_RETHERMAL ? ", T1 from mode_lifetime" : "");
+    print_text_validity_report(cfg, single);
+    for (size_t i = 0; odor && i < cfg->nodorants; i++) {
+        printf("  odorant %s (lowest active mode %.6g meV, nu_n %.4e s^-1, T1 %g ps%s)\n",
+               cfg->odorants[i].name, odor[i].valid_mode,
+               nuclear_frequency(cfg, odor[i].valid_mode), odor[i].valid_t1,
+               odor[i].valid_k_upper ? "; k_total below the FFT's dynamic range: its upper "
+               "estimate is used" : "");
+        print_text_validity_report(cfg, &odor[i].valid);
+    }
+}
+
+static void print_json_validity(const vg_config *cfg, const vg_valid_report *r, double mode,
+                                double t1)
+{
+    int k = 0;
+
+    printf("{\"mode_meV\": ");
+    json_number(mode);
+    printf(", \"nuclear_frequency_s-1\": ");
+    json_number(nuclear_frequency(cfg, mode));
+    printf(", \"relaxation_time_ps\": ");
+    json_number(cfg->validity.tau_l_ps);
+    printf(", \"mode_lifetime_ps\": ");
+    json_number(t1);
+    printf(", \"criteria\": [");
+    for (int c = 0; c < VG_VALID_NCRIT; c++) {
+        if (!(r->evaluated & (1u << c)))
+            continue;
+        printf("%s{\"name\": \"%s\", \"value\": ", k++ ? ", " : "", vg_valid_name(c));
+        json_number(r->value[c]);
+        printf(", \"threshold\": ");
+        json_number(valid_threshold(&cfg->validity.s, c));
+        printf(", \"holds\": %s}", r->failed & (1u << c) ? "false" : "true");
+    }
+    printf("], \"failing\": [");
+    k = 0;
+    for (int c = 0; c < VG_VALID_NCRIT; c++)
+        if (r->failed & (1u << c))
+            printf("%s\"%s\"", k++ ? ", " : "", vg_valid_name(c));
+    printf("]}");
+}
+
+static void print_json_heavy_head(const vg_odorant *od)
+{
+    printf(", \"heavy\": {\"modes\": %zu", od->heavy->n);
+    if (od->substitute_line) {
+        printf(", \"substitute\": ");
+        vg_fmt_json_string(stdout, od->substitute);
+        printf(", \"substituted\": %zu", od->substituted);
+    }
+}
+
+static void print_json_sum(const vg_odorant *od, const odorant_result *r)
+{
+    const vg_multimode_rates *l = &r->light;
+
+    printf(", \"log10_k_total\": ");
+    json_number(rate_log10(l->ln_k_total, l->coupling_zero));
+    printf(", \"log10_k_elastic\": ");
+    json_number(rate_log10(l->ln_k_elastic, l->coupling_zero));
+    printf(", \"log10_k_assisted\": ");
+    json_number(rate_log10(l->ln_k_assisted, l->coupling_zero || l->assisted_zero));
+    printf(", \"log10_ratio\": ");
+    json_number(l->assisted_zero ? VG_FILL : (l->ln_f_assisted - l->ln_f_elastic) / VG_LN10);
+    printf(", \"relative_error_bound\": ");
+    json_number(l->err_total);
+    if (r->has_heavy) {
+        print_json_heavy_head(od);
+        printf(", \"log10_k_total\": ");
+        json_number(rate_log10(r->heavy.ln_k_total, r->heavy.coupling_zero));
+        printf(", \"log10_isotope_effect\": ");
+        json_number((l->ln_f_total - r->heavy.ln_f_total) / VG_LN10);
+        printf("}");
+    }
+}
+
+static void print_json_fft_total(const vg_fft_point *f, double coupling)
+{
+    printf(", \"log10_k_total\": ");
+    json_number(fft_log10_k(f, coupling));
+    printf(", \"below_dynamic_range\": %s, \"error_estimate\": ", f->trusted ? "false" : "true");
+    json_number(f->trusted ? f->err : VG_FILL);
+}
+
+static void print_json_fft(const vg_odorant *od, const odorant_result *r, double coupling)
+{
+    print_json_fft_total(&r->fft, coupling);
+    printf(", \"log10_k_elastic\": null, \"log10_k_assisted\": null, \"log10_ratio\": null");
+    if (r->has_heavy) {
+        print_json_heavy_head(od);
+        print_json_fft_total(&r->fft_heavy, coupling);
+        printf(", \"log10_isotope_effect\": ");
+        json_number(fft_log10_ie(r));
+        printf("}");
+    }
+}
+
+static void print_json_odorants(const vg_config *cfg, const odorant_result *res, int compare,
+                                double coupling)
+{
+    int fft = cfg->engine == VG_ENGINE_FFT;
+
+    printf(",\n  \"engine\": \"%s\",\n  \"odorants\": [", fft ? "fft" : "sum");
+    for (size_t i = 0; i < cfg->nodorants; i++) {
+        const odorant_result *r = &res[i];
         printf("%s\n    {\"name\": ", i ? "," : "");
         vg_fmt_json_string(stdout, cfg->odorants[i].name);
-        printf(", \"modes\": %zu, \"log10_k_total\": ", cfg->odorants[i].light->n);
-        json_number(rate_log10(l->ln_k_total, l->coupling_zero));
-        printf(", \"log10_k_elastic\": ");
-        json_number(rate_log10(l->ln_k_elastic, l->coupling_zero));
-        printf(", \"log10_k_assisted\": ");
-        json_number(rate_log10(l->ln_k_assisted, l->coupling_zero || l->assisted_zero));
-        printf(", \"log10_ratio\": ");
-        json_number(l->assisted_zero ? VG_FILL : (l->ln_f_assisted - l->ln_f_elastic) / VG_LN10);
-        printf(", \"relative_error_bound\": ");
-        json_number(l->err_total);
-        if (res[i].has_heavy) {
-            printf(", \"heavy\": {\"modes\": %zu, \"log10_k_total\": ",
-                   cfg->odorants[i].heavy->n);
-            json_number(rate_log10(res[i].heavy.ln_k_total, res[i].heavy.coupling_zero));
-            printf(", \"log10_isotope_effect\": ");
-            json_number((l->ln_f_total - res[i].heavy.ln_f_total) / VG_LN10);
-            printf("}");
-        }
+        printf(", \"modes\": %zu", cfg->odorants[i].light->n);
+        if (fft)
+            print_json_fft(&cfg->odorants[i], r, coupling);
+        else
+            print_json_sum(&cfg->odorants[i], r);
         if (compare) {
-            printf(", \"fft\": {\"trusted\": %s", res[i].fft.trusted ? "true" : "false");
-            if (res[i].fft.trusted) {
+            printf(", \"fft\": {\"trusted\": %s", r->fft.trusted ? "true" : "false");
+            if (r->fft.trusted) {
                 printf(", \"relative_difference\": ");
-                json_number(res[i].fft_diff);
+                json_number(r->fft_diff);
                 printf(", \"error_estimate\": ");
-                json_number(res[i].fft.err);
+                json_number(r->fft.err);
             }
             printf("}");
+        }
+        if (compare && fft) {
+            printf(", \"sum\": {\"log10_k_total\": ");
+            json_number(rate_log10(r->light.ln_k_total, r->light.coupling_zero));
+            printf(", \"relative_error_bound\": ");
+            json_number(r->light.err_total);
+            printf("}");
+        }
+        if (cfg->validity.s.enabled) {
+            printf(", \"validity_rate_upper_estimate\": %s, \"validity\": ",
+                   r->valid_k_upper ? "true" : "false");
+            print_json_validity(cfg, &r->valid, r->valid_mode, r->valid_t1);
         }
         printf("}");
     }
     printf("\n  ]");
 }
 
-
 static void print_json(const vg_config *cfg, point_result *pr, const odorant_result *odor,
-                       int compare)
+                       int compare, const vg_valid_report *valid)
 {
     int first = 1;
 
@@ -339,8 +619,12 @@ static void print_json(const vg_config *cfg, point_result *pr, const odorant_res
         json_number(pr->metric[m]);
     }
     printf("}");
+    if (cfg->validity.s.enabled) {
+        printf(",\n  \"validity\": ");
+        print_json_validity(cfg, valid, pr->v[VG_P_MODE], cfg->validity.t1_ps);
+    }
     if (odor)
-        print_json_odorants(cfg, odor, compare);
+        print_json_odorants(cfg, odor, compare, pr->v[VG_P_COUPLING]);
     printf("\n}\n");
 }
 
@@ -349,16 +633,24 @@ vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err)
     vg_config cfg;
     point_result pr;
     odorant_result *odor = NULL;
+    vg_valid_report valid;
     vg_status st = vg_config_load(&cfg, a->config, a->nset, a->sets, err);
 
     if (st != VG_OK)
         return st;
+    memset(&valid, 0, sizeof valid);
     st = vg_config_require_scalars(&cfg, "point", 0, err);
     if (st == VG_OK && a->compare && cfg.nodorants == 0)
         st = vg_error_set(err, VG_ECONFIG, "%s: 'point --compare' compares the two many-mode "
                           "engines and needs [odorant.NAME] sections", cfg.path);
     if (st == VG_OK)
         st = compute(&cfg, &pr, err);
+    if (st == VG_OK && cfg.validity.s.enabled) {
+        st = validity_eval(&cfg, pr.v, pr.v[VG_P_MODE], cfg.validity.t1_ps, pr.r.ln_k_total,
+                           pr.r.coupling_zero, &valid, err);
+        if (st != VG_OK)
+            vg_error_prefix(err, "single mode: ");
+    }
     if (st == VG_OK && cfg.nodorants > 0) {
         odor = calloc(cfg.nodorants, sizeof *odor);
         if (!odor)
@@ -368,11 +660,13 @@ vg_status vg_cmd_point(const vg_cmd_args *a, vg_error *err)
     }
     if (st == VG_OK) {
         if (a->json)
-            print_json(&cfg, &pr, odor, a->compare);
+            print_json(&cfg, &pr, odor, a->compare, &valid);
         else
             print_text(&cfg, &pr);
         if (!a->json && odor)
-            print_text_odorants(&cfg, odor, a->compare);
+            print_text_odorants(&cfg, odor, a->compare, pr.v[VG_P_COUPLING]);
+        if (!a->json && cfg.validity.s.enabled)
+            print_text_validity(&cfg, &pr, &valid, odor);
     }
     free(odor);
     vg_config_free(&cfg);

@@ -276,11 +276,32 @@ static void remove_leftovers(const char *dir)
     closedir(d);
 }
 
+/* FNV-1a of every odorant's mode tables as read (the modes in canonical
+ * units and the labels), so that a resumed run refuses a table that changed
+ * since the run began; 0 without odorants. */
+static uint64_t tables_digest(const vg_config *cfg)
+{
+    uint64_t h = VG_CKPT_FNV_BASIS;
+
+    for (size_t i = 0; i < cfg->nodorants; i++) {
+        const vg_modes *t[2] = {cfg->odorants[i].light, cfg->odorants[i].heavy};
+        for (int k = 0; k < 2; k++) {
+            if (!t[k])
+                continue;
+            h = vg_ckpt_fnv1a(h, &t[k]->n, sizeof t[k]->n);
+            h = vg_ckpt_fnv1a(h, t[k]->mode, t[k]->n * sizeof *t[k]->mode);
+            for (size_t j = 0; j < t[k]->n; j++)
+                h = vg_ckpt_fnv1a(h, t[k]->label[j], strlen(t[k]->label[j]) + 1);
+        }
+    }
+    return cfg->nodorants ? h : 0;
+}
+
 static vg_status open_checkpoint(const vg_cmd_args *a, vg_config *cfg, const vg_grid *g,
                                  const char *dir, size_t chunk, vg_ckpt **ck, vg_error *err)
 {
     vg_ckpt_inputs in = {VG_VERSION, cfg->text, cfg->overrides, g->npoints, chunk,
-                         cfg->formats, cfg->metric_on};
+                         cfg->formats, cfg->metric_on, tables_digest(cfg)};
     vg_ckpt_request rq = {dir, a->resume, cfg->path, a->history, a->fixed_time};
     vg_status st = vg_ckpt_open(ck, &rq, &in, err);
     char *path;
@@ -398,7 +419,7 @@ vg_status vg_cmd_sweep(const vg_cmd_args *a, vg_error *err)
     int loaded = st == VG_OK;
 
     if (loaded)
-        st = vg_config_refuse_odorants(&cfg, "sweep", err);
+        st = vg_config_check_mapped_odorant(&cfg, "sweep", err);
     if (loaded && st == VG_OK)
         st = vg_config_check_maps(&cfg, err);
     /* Each rank reads the config; a rank that cannot must stop them all. */

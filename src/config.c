@@ -1438,11 +1438,13 @@ static vg_status require_value(span name, const char *text, vg_require *c, vg_er
         return st;
     c->metric = (vg_metric_id)vg_metric_find(key);
     c->value = x;
-    if (c->metric == VG_M_ISOTOPE_EFFECT) { /* compared in the log domain */
+    if (c->metric == VG_M_ISOTOPE_EFFECT || c->metric == VG_M_DISCRIMINATION) {
+        /* ratios are compared in the log domain */
         if (!(x > 0.0))
-            return vg_error_set(err, VG_ECONFIG, "'isotope_effect' must be compared with a "
-                                "ratio > 0 (got '%s')", show(span_of(text), &b));
-        c->metric = VG_M_LOG10_ISOTOPE_EFFECT;
+            return vg_error_set(err, VG_ECONFIG, "'%s' must be compared with a "
+                                "ratio > 0 (got '%s')", key, show(span_of(text), &b));
+        c->metric = c->metric == VG_M_ISOTOPE_EFFECT ? VG_M_LOG10_ISOTOPE_EFFECT
+                                                     : VG_M_LOG10_DISCRIMINATION;
         c->value = log10(x);
     }
     return VG_OK;
@@ -1608,16 +1610,184 @@ static vg_status set_unc_number(vg_config *cfg, int arg, const char *value, int 
 }
 
 /* ------------------------------------------------------------------ */
+/* [model] odorant and against: names of [odorant.NAME] sections,     */
+/* resolved by check_sweep_odorants once every section is read.       */
+
+static vg_status set_odorant_name(vg_config *cfg, int arg, const char *value, int line,
+                                  vg_error *err)
+{
+    span v = span_trim(span_of(value));
+    char *dst = arg ? cfg->against_name : cfg->odorant_name;
+    shown b;
+
+    if (v.n == 0 || v.n >= sizeof cfg->odorant_name)
+        return vg_error_set(err, VG_ECONFIG, "'%s' needs the NAME of an [odorant.NAME] "
+                            "section (1 to %zu characters, got '%s')", arg ? "against" : "odorant",
+                            sizeof cfg->odorant_name - 1, show(v, &b));
+    memcpy(dst, v.s, v.n);
+    dst[v.n] = '\0';
+    *(arg ? &cfg->against_line : &cfg->odorant_line) = line;
+    return VG_OK;
+}
+
+/* ------------------------------------------------------------------ */
+/* [model] engine and [validity] (docs/config.md).                    */
+
+static vg_status set_engine(vg_config *cfg, int arg, const char *value, int line,
+                            vg_error *err)
+{
+    static const char *const names[] = {"sum", "fft"};
+    size_t k;
+    vg_status st = lookup_name("engine", "engine", span_trim(span_of(value)), names, 2, &k,
+                               err);
+
+    (void)arg;
+    (void)line;
+    if (st == VG_OK)
+        cfg->engine = k ? VG_ENGINE_FFT : VG_ENGINE_SUM;
+    return st;
+}
+
+/* The criteria in VG_VALID_IDX_* order, then the two words that stand alone. */
+static const char *const criterion_names[] = {"nonadiabatic", "solvent", "resolved", "rethermal",
+                                              "all", "none"};
+
+static vg_status set_criteria(vg_config *cfg, int arg, const char *value, int line,
+                              vg_error *err)
+{
+    int on[VG_VALID_NCRIT + 2] = {0};
+    unsigned mask = 0;
+    shown b;
+    vg_status st = parse_names("criteria", "criterion", value, criterion_names,
+                               VG_VALID_NCRIT + 2, on, err);
+
+    (void)arg;
+    (void)line;
+    if (st != VG_OK)
+        return st;
+    for (int i = 0; i < VG_VALID_NCRIT; i++)
+        mask |= on[i] ? 1u << i : 0u;
+    if ((on[VG_VALID_NCRIT] || on[VG_VALID_NCRIT + 1]) &&
+        (mask || (on[VG_VALID_NCRIT] && on[VG_VALID_NCRIT + 1])))
+        return vg_error_set(err, VG_ECONFIG, "'criteria' takes 'all', 'none' or a list of "
+                            "criteria, not a mix (got '%s')", show(span_of(value), &b));
+    cfg->validity.s.enabled = on[VG_VALID_NCRIT] ? VG_VALID_ALL : mask;
+    return VG_OK;
+}
+
+/* nonadiabatic_max (arg VG_VALID_IDX_*), ...: a plain number > 0. */
+static vg_status set_valid_threshold(vg_config *cfg, int arg, const char *value, int line,
+                                     vg_error *err)
+{
+    static const char *const names[VG_VALID_NCRIT] = {"nonadiabatic_max", "solvent_max",
+                                                      "resolved_max", "rethermal_max"};
+    double *field[VG_VALID_NCRIT] = {&cfg->validity.s.nonadiabatic_max,
+                                     &cfg->validity.s.solvent_max,
+                                     &cfg->validity.s.resolved_max,
+                                     &cfg->validity.s.rethermal_max};
+    double x;
+    shown b;
+    vg_status st = parse_plain(names[arg], value, "is dimensionless and takes no unit",
+                               -HUGE_VAL, HUGE_VAL, &x, err);
+
+    (void)line;
+    if (st == VG_OK && !(x > 0.0))
+        st = vg_error_set(err, VG_ECONFIG, "'%s' must be > 0 (got %s)", names[arg],
+                          show(span_trim(span_of(value)), &b));
+    if (st == VG_OK)
+        *field[arg] = x;
+    return st;
+}
+
+/* Frequency units of nuclear_frequency, in s^-1. */
+static const scale_unit freq_units[] = {
+    {"s-1", 1.0}, {"s^-1", 1.0}, {"Hz", 1.0}, {"kHz", 1e3}, {"MHz", 1e6}, {"GHz", 1e9},
+    {"THz", 1e12},
+};
+
+/* "-5 fs = -0.005 ps", or "-5 ps" when the unit is the stored one. */
+static void describe_scaled(span num, const char *unit, double x, const char *base, char *buf,
+                            size_t size)
+{
+    if (strcmp(unit, base) == 0)
+        snprintf(buf, size, "%.*s %s", (int)num.n, num.s, unit);
+    else
+        snprintf(buf, size, "%.*s %s = %.6g %s", (int)num.n, num.s, unit, x, base);
+}
+
+/* A number and a frequency unit, or 'mode' (stored as 0: the mode's own
+ * omega / 2 pi); 0 means the same. */
+static vg_status set_nuclear_frequency(vg_config *cfg, int arg, const char *value, int line,
+                                       vg_error *err)
+{
+    const size_t nu = sizeof freq_units / sizeof freq_units[0];
+    span num;
+    size_t u;
+    double x;
+    char got[2 * CFG_NUM_MAX + 32];
+    vg_status st;
+
+    (void)arg;
+    (void)line;
+    if (span_is(span_trim(span_of(value)), "mode")) {
+        cfg->validity.s.nuclear_frequency = 0.0;
+        return VG_OK;
+    }
+    st = parse_scaled("nuclear_frequency", value, freq_units, nu,
+                      "s-1, s^-1, Hz, kHz, MHz, GHz or THz, or 'mode'", &x, &num, &u, err);
+    if (st != VG_OK)
+        return st;
+    describe_scaled(num, freq_units[u].name, x, "s-1", got, sizeof got);
+    if (!isfinite(x))
+        return vg_error_set(err, VG_ECONFIG, "'nuclear_frequency' is beyond the range of "
+                            "double precision in s-1 (got %s)", got);
+    if (x < 0.0)
+        return vg_error_set(err, VG_ECONFIG, "'nuclear_frequency' must be > 0 s-1, or 0 or "
+                            "'mode' for the mode's own frequency (got %s)", got);
+    cfg->validity.s.nuclear_frequency = x == 0.0 ? 0.0 : x;
+    return VG_OK;
+}
+
+/* relaxation_time (arg 0), mode_lifetime (arg 1): a time > 0, stored in ps. */
+static vg_status set_valid_time(vg_config *cfg, int arg, const char *value, int line,
+                                vg_error *err)
+{
+    const char *key = arg ? "mode_lifetime" : "relaxation_time";
+    span num;
+    size_t u;
+    double x;
+    char got[2 * CFG_NUM_MAX + 32];
+    vg_status st = parse_scaled(key, value, time_units, sizeof time_units / sizeof time_units[0],
+                                "fs, ps, ns, us, ms or s", &x, &num, &u, err);
+
+    (void)line;
+    if (st != VG_OK)
+        return st;
+    x /= 1e-12;
+    describe_scaled(num, time_units[u].name, x, "ps", got, sizeof got);
+    if (!(x > 0.0))
+        return vg_error_set(err, VG_ECONFIG, "'%s' must be > 0 ps (got %s)", key, got);
+    if (!isfinite(x))
+        return vg_error_set(err, VG_ECONFIG, "'%s' is beyond the range of double precision "
+                            "in ps (got %s)", key, got);
+    if (arg)
+        cfg->validity.t1_ps = x;
+    else
+        cfg->validity.tau_l_ps = x;
+    return VG_OK;
+}
+
+/* ------------------------------------------------------------------ */
 /* The table of keys.                                                 */
 
 typedef enum {
     SEC_SCENARIO, SEC_PARAMETERS, SEC_MODEL, SEC_OUTPUT, SEC_ISOTOPE, SEC_FEASIBILITY,
-    SEC_UNCERTAINTY, N_SECTIONS
+    SEC_UNCERTAINTY, SEC_VALIDITY, N_SECTIONS
 } section_id;
 
 static const char *const section_names[N_SECTIONS] = {"scenario", "parameters", "model",
                                                        "output", "isotope", "feasibility",
-                                                       "uncertainty"};
+                                                       "uncertainty", "validity"};
 
 typedef vg_status (*key_setter)(vg_config *cfg, int arg, const char *value, int line,
                                 vg_error *err);
@@ -1640,6 +1810,9 @@ static const key_def keys[] = {
     {SEC_PARAMETERS, "temperature", set_param, VG_P_TEMPERATURE},
     {SEC_MODEL, "mode_statistics", set_stats, 0},
     {SEC_MODEL, "tolerance", set_tolerance, 0},
+    {SEC_MODEL, "engine", set_engine, 0},
+    {SEC_MODEL, "odorant", set_odorant_name, 0},
+    {SEC_MODEL, "against", set_odorant_name, 1},
     {SEC_OUTPUT, "directory", set_directory, 0},
     {SEC_OUTPUT, "data", set_data, 0},
     {SEC_OUTPUT, "metrics", set_metrics, 0},
@@ -1670,6 +1843,14 @@ static const key_def keys[] = {
     {SEC_UNCERTAINTY, "seed", set_unc_number, 1},
     {SEC_UNCERTAINTY, "bootstrap", set_unc_number, 2},
     {SEC_UNCERTAINTY, "level", set_unc_number, 3},
+    {SEC_VALIDITY, "criteria", set_criteria, 0},
+    {SEC_VALIDITY, "nonadiabatic_max", set_valid_threshold, VG_VALID_IDX_NONADIABATIC},
+    {SEC_VALIDITY, "solvent_max", set_valid_threshold, VG_VALID_IDX_SOLVENT},
+    {SEC_VALIDITY, "resolved_max", set_valid_threshold, VG_VALID_IDX_RESOLVED},
+    {SEC_VALIDITY, "rethermal_max", set_valid_threshold, VG_VALID_IDX_RETHERMAL},
+    {SEC_VALIDITY, "nuclear_frequency", set_nuclear_frequency, 0},
+    {SEC_VALIDITY, "relaxation_time", set_valid_time, 0},
+    {SEC_VALIDITY, "mode_lifetime", set_valid_time, 1},
 };
 
 #define N_KEYS (sizeof keys / sizeof keys[0])
@@ -1715,7 +1896,7 @@ static vg_status unknown_key(int sec, span name, vg_error *err)
     if (sec < 0)
         return vg_error_set(err, VG_ECONFIG, "key '%s' comes before any section header (start "
                             "with [scenario], [parameters], [model], [output], [isotope], "
-                            "[feasibility] or [uncertainty])", show(name, &b));
+                            "[feasibility], [uncertainty] or [validity])", show(name, &b));
     if (home >= 0)
         return vg_error_set(err, VG_ECONFIG, "unknown key '%s' in [%s] (it belongs in [%s])",
                             show(name, &b), section_names[sec], section_names[keys[home].section]);
@@ -1739,6 +1920,7 @@ typedef struct {
     int key_line[N_KEYS];           /* line that set each key; 0 none, -1 --set */
     int odorant;                    /* the [odorant.NAME] section being read, or -1 */
     vg_status status;               /* first failure */
+    int no_tables;      /* 1: a config from a data file; its mode tables are not read */
 } loader;
 
 /* Only UTF-8 text and tabs: no NUL, no other control character. */
@@ -1808,29 +1990,36 @@ static vg_status odorant_header(loader *ld, span name)
     return VG_OK;
 }
 
-/* modes = PATH or heavy_modes = PATH in odorant od, set at line (-1:
- * --set).  The tables are read once the whole config is known. */
+/* modes = PATH, heavy_modes = PATH or substitute = PATTERN in odorant od,
+ * set at line (-1: --set).  The tables are read, and the pattern applied,
+ * once the whole config is known. */
 static vg_status odorant_key(loader *ld, vg_odorant *od, span key, const char *value, int line)
 {
-    static const char *const names[] = {"modes", "heavy_modes"};
+    static const char *const names[] = {"modes", "heavy_modes", "substitute"};
     span v = span_trim(span_of(value));
-    int heavy = span_is(key, "heavy_modes");
-    int *at = heavy ? &od->heavy_line : &od->modes_line;
-    char *path = heavy ? od->heavy_path : od->modes_path;
+    int k = span_is(key, "modes") ? 0 : span_is(key, "heavy_modes") ? 1
+            : span_is(key, "substitute") ? 2 : -1;
+    int *at[3] = {&od->modes_line, &od->heavy_line, &od->substitute_line};
+    char *text[3] = {od->modes_path, od->heavy_path, od->substitute};
+    size_t size[3] = {sizeof od->modes_path, sizeof od->heavy_path, sizeof od->substitute};
     char h[256];
     shown b;
 
-    if (!heavy && !span_is(key, "modes"))
+    if (k < 0)
         return vg_error_set(ld->err, VG_ECONFIG, "unknown key '%s' in [odorant.%s] (%s)",
-                            show(key, &b), od->name, hint(h, sizeof h, key, names, 2, "", ""));
-    if (*at > 0 && line > 0)
+                            show(key, &b), od->name, hint(h, sizeof h, key, names, 3, "", ""));
+    if (*at[k] > 0 && line > 0)
         return vg_error_set(ld->err, VG_ECONFIG, "duplicate key '%s' in [odorant.%s] (first set "
-                            "at line %d)", names[heavy], od->name, *at);
-    if (v.n == 0 || v.n >= sizeof od->modes_path)
+                            "at line %d)", names[k], od->name, *at[k]);
+    if (k == 2 && (v.n == 0 || v.n >= size[k]))
+        return vg_error_set(ld->err, VG_ECONFIG, "'substitute' needs a pattern of 1 to %zu "
+                            "bytes matching mode labels, such as 'C-H stretch*' (got '%s')",
+                            size[k] - 1, show(v, &b));
+    if (v.n == 0 || v.n >= size[k])
         return vg_error_set(ld->err, VG_ECONFIG, "'%s' needs the path of a mode table",
-                            names[heavy]);
-    snprintf(path, sizeof od->modes_path, "%.*s", (int)v.n, v.s);
-    *at = line;
+                            names[k]);
+    snprintf(text[k], size[k], "%.*s", (int)v.n, v.s);
+    *at[k] = line;
     return VG_OK;
 }
 
@@ -1887,6 +2076,17 @@ static vg_status odorant_table(loader *ld, const vg_odorant *od, int heavy, vg_m
     return st;
 }
 
+/* Prefix for a message about key of odorant od set at line. */
+static vg_status odorant_locate(loader *ld, const vg_odorant *od, const char *key, int line,
+                                vg_status st)
+{
+    if (line < 0)
+        vg_error_prefix(ld->err, "--set odorant.%s.%s: ", od->name, key);
+    else
+        vg_error_prefix(ld->err, "%s:%d: ", ld->path, line);
+    return st;
+}
+
 /* Every odorant needs 'modes'; the tables are read here. */
 static vg_status check_odorants(loader *ld)
 {
@@ -1897,6 +2097,13 @@ static vg_status check_odorants(loader *ld)
         if (od->modes_line == 0)
             return vg_error_set(ld->err, VG_ECONFIG, "%s:%d: [odorant.%s] needs 'modes' (the "
                                 "path of its mode table)", ld->path, od->line, od->name);
+        if (od->heavy_line != 0 && od->substitute_line != 0)
+            return odorant_locate(ld, od, "substitute", od->substitute_line,
+                                  vg_error_set(ld->err, VG_ECONFIG, "give 'heavy_modes' or "
+                                               "'substitute' in [odorant.%s], not both",
+                                               od->name));
+        if (ld->no_tables)
+            continue;
         st = odorant_table(ld, od, 0, &od->light);
         if (st == VG_OK && od->heavy_line != 0)
             st = odorant_table(ld, od, 1, &od->heavy);
@@ -1904,14 +2111,100 @@ static vg_status check_odorants(loader *ld)
     return st;
 }
 
+/* Mode i of table t as "'LABEL' (line N of PATH)" for messages. */
+static const char *mode_name(const vg_modes *t, size_t i, const char *path, char *buf,
+                             size_t size)
+{
+    snprintf(buf, size, "'%s' (line %d of %s)", t->label[i], t->line[i], path);
+    return buf;
+}
+
+/* The heavy form of the modes the pattern matches must stay in the
+ * table's accepted ranges. */
+static vg_status check_heavy_modes(loader *ld, const vg_odorant *od)
+{
+    const vg_modes *l = od->light, *h = od->heavy;
+    char where[VG_MODES_LABEL_SIZE + 1100];
+
+    for (size_t i = 0; i < h->n; i++) {
+        if (h->mode[i].mode < VG_MODES_QUANTUM_MIN)
+            return vg_error_set(ld->err, VG_ECONFIG, "'substitute' in [odorant.%s]: the heavy "
+                                "form of mode %s would be %g meV (%g meV / frequency ratio %g), "
+                                "below the accepted %g meV", od->name,
+                                mode_name(l, i, od->modes_path, where, sizeof where),
+                                h->mode[i].mode, l->mode[i].mode,
+                                ld->cfg->isotope.frequency_ratio, VG_MODES_QUANTUM_MIN);
+        if (h->mode[i].huang_rhys > VG_MODES_S_MAX)
+            return vg_error_set(ld->err, VG_ECONFIG, "'substitute' in [odorant.%s]: the heavy "
+                                "form of mode %s would have huang_rhys %g (%g x frequency "
+                                "ratio %g), above the accepted %g", od->name,
+                                mode_name(l, i, od->modes_path, where, sizeof where),
+                                h->mode[i].huang_rhys, l->mode[i].huang_rhys,
+                                ld->cfg->isotope.frequency_ratio, VG_MODES_S_MAX);
+    }
+    return VG_OK;
+}
+
+/* substitute = PATTERN: the heavy table from the light one by the
+ * [isotope] rule (after check_isotope, which settles the ratio). */
+static vg_status check_substitutes(loader *ld)
+{
+    vg_config *cfg = ld->cfg;
+    vg_status st = VG_OK;
+
+    for (size_t i = 0; st == VG_OK && i < cfg->nodorants; i++) {
+        vg_odorant *od = &cfg->odorants[i];
+        int line = od->substitute_line;
+        if (line == 0 || ld->no_tables)
+            continue;
+        if (!cfg->isotope.on)
+            return odorant_locate(ld, od, "substitute", line, vg_error_set(ld->err, VG_ECONFIG,
+                                  "'substitute' in [odorant.%s] needs an [isotope] section "
+                                  "(its rule gives the heavy modes)", od->name));
+        od->heavy = malloc(sizeof *od->heavy);
+        if (!od->heavy)
+            return no_memory(ld->err);
+        od->substituted = vg_isotope_heavy_modes(&cfg->isotope, od->substitute, od->light,
+                                                 od->heavy);
+        if (od->substituted == 0)
+            st = vg_error_set(ld->err, VG_ECONFIG, "'substitute = %s' in [odorant.%s] matches "
+                              "no mode label of %s%s", od->substitute, od->name, od->modes_path,
+                              od->light->has_label ? "" : " (the table has no 'label' column)");
+        if (st == VG_OK)
+            st = check_heavy_modes(ld, od);
+        if (st != VG_OK)
+            return odorant_locate(ld, od, "substitute", line, st);
+    }
+    return st;
+}
+
+vg_status vg_config_check_mapped_odorant(const vg_config *cfg, const char *command,
+                                         vg_error *err)
+{
+    if (!vg_config_mapped(cfg))
+        return vg_config_refuse_odorants(cfg, command, err);
+    if (cfg->engine == VG_ENGINE_FFT)
+        return vg_error_set(err, VG_ECONFIG, "%s: '%s' maps odorants with the sum engine only: "
+                            "'engine = fft' gives the total rate alone, and the maps need the "
+                            "elastic and assisted parts too (use engine = sum, the default; "
+                            "'point --compare' checks one point against the FFT)", cfg->path,
+                            command);
+    return VG_OK;
+}
+
 vg_status vg_config_refuse_odorants(const vg_config *cfg, const char *command, vg_error *err)
 {
     if (cfg->nodorants == 0)
         return VG_OK;
+    if (strcmp(command, "sweep") == 0 || strcmp(command, "check") == 0)
+        return vg_error_set(err, VG_ECONFIG, "%s: '%s' maps one many-mode odorant in place "
+                            "of the single mode: name it with 'odorant = NAME' in [model] "
+                            "([odorant.%s] is given), or remove the [odorant.NAME] sections",
+                            cfg->path, command, cfg->odorants[0].name);
     return vg_error_set(err, VG_ECONFIG, "%s: '%s' does not take many-mode odorants yet "
-                        "([odorant.%s]; only 'point' does): remove the [odorant.NAME] sections "
-                        "to use the single mode of [parameters]", cfg->path, command,
-                        cfg->odorants[0].name);
+                        "([odorant.%s]; only 'point', 'sweep' and 'check' do): remove the "
+                        "[odorant.NAME] sections to use the single mode of [parameters]",
+                        cfg->path, command, cfg->odorants[0].name);
 }
 
 /* "[name]", optionally followed by a comment; a known section, once. */
@@ -2458,6 +2751,10 @@ const char *vg_config_metric_lacks(const vg_config *cfg, vg_metric_id m)
         return "an [isotope] section";
     if ((needs & VG_NEEDS_FEASIBILITY) && cfg->feasibility.n == 0)
         return "'require' conditions in [feasibility]";
+    if ((needs & VG_NEEDS_DISCRIMINATION) && !vg_config_against(cfg))
+        return "'odorant' and 'against' in [model]";
+    if ((needs & VG_NEEDS_VALIDITY) && !(cfg->validity.on && cfg->validity.s.enabled))
+        return "criteria in [validity]";
     return NULL;
 }
 
@@ -2517,6 +2814,83 @@ static vg_status check_uncertainty(loader *ld)
                   u->bootstrap));
 }
 
+/* [validity]: given at all (header or any key) turns it on, with every
+ * criterion unless 'criteria' says otherwise; a criterion needs its input. */
+/* [model] odorant and against name sections that exist; with odorant the
+ * single mode's parameters are not used, so they may not be axes; with
+ * [isotope], the mapped odorant needs its heavy form. */
+static vg_status check_sweep_odorants(loader *ld)
+{
+    vg_config *cfg = ld->cfg;
+    int ok = key_of(SEC_MODEL, "odorant"), ak = key_of(SEC_MODEL, "against");
+
+    if (cfg->odorant_line != 0) {
+        cfg->odorant = odorant_index(cfg, span_of(cfg->odorant_name));
+        if (cfg->odorant < 0)
+            return locate_line(ld, ok, cfg->odorant_line, vg_error_set(ld->err, VG_ECONFIG,
+                               "'odorant = %s' names no [odorant.NAME] section",
+                               cfg->odorant_name));
+    }
+    if (cfg->against_line != 0) {
+        if (cfg->odorant < 0)
+            return locate_line(ld, ak, cfg->against_line, vg_error_set(ld->err, VG_ECONFIG,
+                               "'against' needs 'odorant' in [model] (the odorant compared)"));
+        cfg->against = odorant_index(cfg, span_of(cfg->against_name));
+        if (cfg->against < 0)
+            return locate_line(ld, ak, cfg->against_line, vg_error_set(ld->err, VG_ECONFIG,
+                               "'against = %s' names no [odorant.NAME] section",
+                               cfg->against_name));
+        if (cfg->against == cfg->odorant)
+            return locate_line(ld, ak, cfg->against_line, vg_error_set(ld->err, VG_ECONFIG,
+                               "'against = %s' names the odorant itself; name another "
+                               "[odorant.NAME] section", cfg->against_name));
+    }
+    if (cfg->odorant < 0)
+        return VG_OK;
+    for (int p = 0; p < VG_NPARAM; p++)
+        if ((p == VG_P_MODE || p == VG_P_HUANG_RHYS) && cfg->param[p].n > 1)
+            return locate_line(ld, ok, cfg->odorant_line, vg_error_set(ld->err, VG_ECONFIG,
+                               "with 'odorant = %s' the modes come from its table: '%s' "
+                               "must be a single value, not an axis", cfg->odorant_name,
+                               p == VG_P_MODE ? "mode" : "huang_rhys"));
+    if (cfg->isotope.on && !ld->no_tables && !cfg->odorants[cfg->odorant].heavy)
+        return locate_line(ld, ok, cfg->odorant_line, vg_error_set(ld->err, VG_ECONFIG,
+                           "[isotope] with 'odorant = %s' needs its heavy form: "
+                           "'heavy_modes' or 'substitute' in [odorant.%s]", cfg->odorant_name,
+                           cfg->odorant_name));
+    return VG_OK;
+}
+
+static vg_status check_validity(loader *ld)
+{
+    vg_validity *v = &ld->cfg->validity;
+    int ck = key_of(SEC_VALIDITY, "criteria"), any = ld->section_line[SEC_VALIDITY] != 0;
+    int line;
+
+    for (size_t k = 0; k < N_KEYS; k++)
+        any |= keys[k].section == SEC_VALIDITY && ld->key_line[k] != 0;
+    if (!any)
+        return VG_OK;
+    v->on = 1;
+    if (!ld->key_line[ck])
+        v->s.enabled = VG_VALID_ALL;
+    line = ld->key_line[ck] ? ld->key_line[ck] : ld->section_line[SEC_VALIDITY] ?
+           ld->section_line[SEC_VALIDITY] : -1;
+    if ((v->s.enabled & VG_VALID_SOLVENT) && v->tau_l_ps == 0.0)
+        return locate_line(ld, ck, line, vg_error_set(ld->err, VG_ECONFIG, "criterion 'solvent' "
+                           "needs 'relaxation_time' in [validity] (the environment's "
+                           "longitudinal relaxation time)"));
+    if ((v->s.enabled & VG_VALID_RETHERMAL) && v->t1_ps == 0.0)
+        return locate_line(ld, ck, line, vg_error_set(ld->err, VG_ECONFIG, "criterion "
+                           "'rethermal' needs 'mode_lifetime' in [validity] (the lifetime T1 of "
+                           "the mode's first excited level)"));
+    if (vg_valid_settings_check(&v->s, ld->err) != VG_OK) { /* the setters rule it out */
+        vg_error_prefix(ld->err, "[validity]: ");
+        return locate_line(ld, ck, line, VG_ECONFIG);
+    }
+    return VG_OK;
+}
+
 static vg_status finish(loader *ld)
 {
     vg_status st = VG_OK;
@@ -2528,6 +2902,12 @@ static vg_status finish(loader *ld)
         st = check_odorants(ld);
     if (st == VG_OK)
         st = check_isotope(ld);
+    if (st == VG_OK)
+        st = check_substitutes(ld);
+    if (st == VG_OK)
+        st = check_sweep_odorants(ld);
+    if (st == VG_OK)
+        st = check_validity(ld);
     if (st == VG_OK)
         st = check_metric_needs(ld);
     if (st == VG_OK)
@@ -2588,6 +2968,7 @@ static vg_status config_init(vg_config *cfg, const char *path, size_t nset,
     cfg->overrides = nset ? join_sets(nset, sets) : NULL;
     cfg->stats = VG_STATS_THERMAL;
     cfg->tolerance = CFG_TOL_DEFAULT;
+    cfg->odorant = cfg->against = -1;
     cfg->formats = VG_FMT_NETCDF | VG_FMT_CSV;
     cfg->max_bytes = CFG_MAX_BYTES_DEFAULT;
     for (int m = 0; m < VG_N_METRICS; m++)
@@ -2597,6 +2978,8 @@ static vg_status config_init(vg_config *cfg, const char *path, size_t nset,
     cfg->uncertainty.seed = 1;
     cfg->uncertainty.bootstrap = 500;
     cfg->uncertainty.level = 0.95;
+    vg_valid_settings_default(&cfg->validity.s);
+    cfg->validity.s.enabled = 0u;
     figure_init(&cfg->fig);
     if (!cfg->path || !cfg->title || !cfg->notes || !cfg->out_dir || (nset && !cfg->overrides))
         return no_memory(err);
@@ -2633,6 +3016,7 @@ static vg_status load(vg_config *cfg, const char *name, const char *text, int fr
     ld.err = err;
     ld.path = name;
     ld.odorant = -1;
+    ld.no_tables = !from_file;
     st = config_init(cfg, name, nset, sets, err);
     if (st == VG_OK && from_file)
         st = read_file(name, &cfg->text, &len, err);

@@ -6,6 +6,10 @@
  * the displacement and lambda_v = S hbar omega stay fixed while the
  * frequency scales as 1 / sqrt(reduced mass).
  */
+#define _POSIX_C_SOURCE 200809L /* fnmatch */
+
+#include <float.h>
+#include <fnmatch.h>
 #include <math.h>
 
 #include "vg_evaluate.h"
@@ -27,9 +31,27 @@ void vg_isotope_heavy(const vg_isotope *iso, double S, double mode_meV, double *
     *S_heavy = iso->rule == VG_HR_BORN_OPPENHEIMER ? S * iso->frequency_ratio : S;
 }
 
+size_t vg_isotope_heavy_modes(const vg_isotope *iso, const char *pattern, const vg_modes *light,
+                              vg_modes *heavy)
+{
+    size_t matched = 0;
+
+    *heavy = *light;
+    for (size_t i = 0; i < light->n; i++) {
+        vg_multimode_mode *m = &heavy->mode[i];
+        if (fnmatch(pattern, light->label[i], 0) != 0)
+            continue;
+        vg_isotope_heavy(iso, light->mode[i].huang_rhys, light->mode[i].mode, &m->huang_rhys,
+                         &m->mode);
+        matched++;
+    }
+    return matched;
+}
+
 vg_status vg_evaluate(const vg_config *cfg, const double v[VG_NPARAM], vg_eval_result *res,
                       vg_error *err)
 {
+    double valid = VG_FILL;
     vg_status st = vg_rate_mode_init(&res->light_mode, cfg->stats, v[VG_P_HUANG_RHYS],
                                      v[VG_P_MODE], v[VG_P_TEMPERATURE], err);
 
@@ -48,7 +70,34 @@ vg_status vg_evaluate(const vg_config *cfg, const double v[VG_NPARAM], vg_eval_r
             vg_error_prefix(err, "heavy isotopologue: ");
     }
     if (st == VG_OK)
-        vg_metrics_compute(&res->light, cfg->isotope.on ? &res->heavy : NULL, &cfg->feasibility,
-                           res->metric);
+        st = vg_evaluate_valid(cfg, v[VG_P_COUPLING], v[VG_P_REORG], v[VG_P_TEMPERATURE],
+                               v[VG_P_MODE], cfg->validity.t1_ps, &res->light, &valid, err);
+    if (st == VG_OK)
+        vg_metrics_compute_full(&res->light, cfg->isotope.on ? &res->heavy : NULL, NULL, valid,
+                                &cfg->feasibility, res->metric);
+    return st;
+}
+
+vg_status vg_evaluate_valid(const vg_config *cfg, double coupling_meV, double reorg_meV,
+                            double temperature_K, double mode_meV, double t1_ps,
+                            const vg_rates *r, double *valid, vg_error *err)
+{
+    vg_valid_point p;
+    vg_valid_report rep;
+    vg_status st;
+
+    *valid = VG_FILL;
+    if (!cfg->validity.on || !cfg->validity.s.enabled)
+        return VG_OK;
+    p.coupling = coupling_meV;
+    p.reorg = reorg_meV;
+    p.temperature = temperature_K;
+    p.mode = mode_meV;
+    p.tau_l = cfg->validity.tau_l_ps;
+    p.t1 = t1_ps;
+    p.k_total = r->coupling_zero ? 0.0 : fmin(exp(r->ln_k_total), DBL_MAX);
+    st = vg_valid_evaluate(&cfg->validity.s, &p, &rep, err);
+    if (st == VG_OK)
+        *valid = rep.failed == 0 ? 1.0 : 0.0;
     return st;
 }

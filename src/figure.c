@@ -60,6 +60,7 @@ typedef struct {
     const double *z;          /* metric over the grid */
     const double *ratio;      /* log10_ratio over the grid */
     const double *feasible;   /* feasible over the grid, NULL without [feasibility] */
+    const double *valid;      /* valid over the grid, NULL without [validity] criteria */
     const vg_field_spec *field; /* a field that is not a metric (vg_figure_field), or NULL */
     axis_view ax, ay;
     size_t ncol, nrow;
@@ -81,7 +82,7 @@ static const char *symbol_markup(vg_param_id p)
 
 static const char *metric_markup(vg_metric_id m)
 {
-    static const char *s[VG_N_METRICS] = {
+    static const char *const s[] = {
         "log<sub>10</sub>(<i>k</i><sub>elastic</sub> / s<sup>−1</sup>)",
         "log<sub>10</sub>(<i>k</i><sub>assisted</sub> / s<sup>−1</sup>)",
         "log<sub>10</sub>(<i>k</i><sub>total</sub> / s<sup>−1</sup>)",
@@ -92,7 +93,11 @@ static const char *metric_markup(vg_metric_id m)
         "log<sub>10</sub>(<i>k</i><sub>total, heavy</sub> / s<sup>−1</sup>)",
         "<i>k</i><sub>light</sub> / <i>k</i><sub>heavy</sub>",
         "log<sub>10</sub>(<i>k</i><sub>light</sub> / <i>k</i><sub>heavy</sub>)",
-        "feasible (1) or not (0)"};
+        "feasible (1) or not (0)",
+        "<i>k</i><sub>odorant</sub> / <i>k</i><sub>other</sub>",
+        "log<sub>10</sub>(<i>k</i><sub>odorant</sub> / <i>k</i><sub>other</sub>)",
+        "model valid (1) or not (0)"};
+    _Static_assert(sizeof s / sizeof *s == VG_N_METRICS, "one label per metric");
     return s[m];
 }
 
@@ -242,10 +247,12 @@ static double nice_up(double x)
 }
 
 /* Metrics with a natural zero between two regimes (assisted against
- * elastic, light against heavy) take the diverging map, centred on 0. */
+ * elastic, light against heavy, one odorant against another) take the
+ * diverging map, centred on 0. */
 static int diverging_metric(vg_metric_id m)
 {
-    return m == VG_M_LOG10_RATIO || m == VG_M_LOG10_ISOTOPE_EFFECT;
+    return m == VG_M_LOG10_RATIO || m == VG_M_LOG10_ISOTOPE_EFFECT
+           || m == VG_M_LOG10_DISCRIMINATION;
 }
 
 /* The colour range: the central 98 % of the figure's values rounded out
@@ -282,7 +289,8 @@ static vg_status colour_range(figure *f, vg_error *err)
     } else if (f->field) {
         f->lo = f->field->lo;
         f->hi = f->field->hi;
-    } else if (f->metric == VG_M_ASSISTED_FRACTION || f->metric == VG_M_FEASIBLE) {
+    } else if (f->metric == VG_M_ASSISTED_FRACTION || f->metric == VG_M_FEASIBLE
+               || f->metric == VG_M_VALID) {
         f->lo = 0.0;
         f->hi = 1.0;
     } else {
@@ -356,6 +364,17 @@ static void draw_cells_image(cairo_t *cr, const figure *f, const double *s, doub
     cairo_surface_destroy(img);
 }
 
+/* Cell (i, j) of a panel at (x0, y0) added to the current path. */
+static void cell_rect(cairo_t *cr, const figure *f, size_t i, size_t j, double x0, double y0)
+{
+    double xa = x0 + f->pw * axis_frac(&f->ax, f->ax.e[i]);
+    double xb = x0 + f->pw * axis_frac(&f->ax, f->ax.e[i + 1]);
+    double ya = y0 + f->ph * (1.0 - axis_frac(&f->ay, f->ay.e[j]));
+    double yb = y0 + f->ph * (1.0 - axis_frac(&f->ay, f->ay.e[j + 1]));
+
+    cairo_rectangle(cr, fmin(xa, xb), fmin(ya, yb), fabs(xb - xa), fabs(yb - ya));
+}
+
 static void draw_cells_rects(cairo_t *cr, const figure *f, const double *s, double x0, double y0)
 {
     cairo_save(cr);
@@ -363,13 +382,9 @@ static void draw_cells_rects(cairo_t *cr, const figure *f, const double *s, doub
     for (size_t j = 0; j < f->ay.n; j++)
         for (size_t i = 0; i < f->ax.n; i++) {
             double rgb[3];
-            double xa = x0 + f->pw * axis_frac(&f->ax, f->ax.e[i]);
-            double xb = x0 + f->pw * axis_frac(&f->ax, f->ax.e[i + 1]);
-            double ya = y0 + f->ph * (1.0 - axis_frac(&f->ay, f->ay.e[j]));
-            double yb = y0 + f->ph * (1.0 - axis_frac(&f->ay, f->ay.e[j + 1]));
             cell_colour(f, s[j * f->ax.n + i], rgb);
             cairo_set_source_rgb(cr, rgb[0], rgb[1], rgb[2]);
-            cairo_rectangle(cr, fmin(xa, xb), fmin(ya, yb), fabs(xb - xa), fabs(yb - ya));
+            cell_rect(cr, f, i, j, x0, y0);
             cairo_fill(cr);
         }
     cairo_restore(cr);
@@ -407,6 +422,37 @@ static void stroke_cased(cairo_t *cr, double edge_w, double edge, double core_w,
     cairo_set_line_width(cr, core_w);
     cairo_set_source_rgb(cr, core, core, core);
     cairo_stroke(cr);
+}
+
+/* Spacing of the hatching over cells where the model is not valid, pt. */
+#define HATCH_STEP 4.0
+
+/* The cells where a validity criterion of [validity] fails (valid = 0),
+ * hatched with thin diagonal lines, dark over a light casing, so that the
+ * colours stay readable beneath and the hatching reads on every colour and
+ * in grayscale. */
+static void draw_hatch(cairo_t *cr, const figure *f, const double *valid, double x0, double y0)
+{
+    int any = 0;
+
+    cairo_save(cr);
+    cairo_new_path(cr);
+    for (size_t j = 0; j < f->ay.n; j++)
+        for (size_t i = 0; i < f->ax.n; i++)
+            if (valid[j * f->ax.n + i] == 0.0) {
+                cell_rect(cr, f, i, j, x0, y0);
+                any = 1;
+            }
+    if (any) {
+        cairo_clip(cr);
+        for (double t = -f->ph; t < f->pw; t += HATCH_STEP) {
+            cairo_move_to(cr, x0 + t, y0 + f->ph);
+            cairo_line_to(cr, x0 + t + f->ph, y0);
+        }
+        stroke_cased(cr, 1.5, 1.0, 0.55, 0.1);
+    }
+    cairo_new_path(cr);
+    cairo_restore(cr);
 }
 
 static void draw_lines(cairo_t *cr, const figure *f, const double *s, const double *ratio,
@@ -544,12 +590,14 @@ static vg_status draw_panels(cairo_t *cr, const figure *f, vg_error *err)
     size_t cells = f->ax.n * f->ay.n, cap = 2 * cells + 4;
     double *s = malloc(cells * sizeof *s), *q = malloc(cells * sizeof *q);
     double *w = f->feasible ? malloc(cells * sizeof *w) : NULL;
+    double *h = f->valid ? malloc(cells * sizeof *h) : NULL;
     vg_segment *seg = malloc(cap * sizeof *seg);
 
-    if (!s || !q || !seg || (f->feasible && !w)) {
+    if (!s || !q || !seg || (f->feasible && !w) || (f->valid && !h)) {
         free(s);
         free(q);
         free(w);
+        free(h);
         free(seg);
         return vg_error_set(err, VG_ENOMEM, "out of memory for a figure panel");
     }
@@ -566,6 +614,10 @@ static vg_status draw_panels(cairo_t *cr, const figure *f, vg_error *err)
                 draw_cells_image(cr, f, s, x0, y0);
             else
                 draw_cells_rects(cr, f, s, x0, y0);
+            if (h) {
+                slice(f, f->valid, c, r, h);
+                draw_hatch(cr, f, h, x0, y0);
+            }
             draw_lines(cr, f, s, f->ratio ? q : NULL, w, seg, cap, x0, y0);
             draw_marks(cr, f, c, r, x0, y0);
             draw_axes(cr, f, c, r, x0, y0);
@@ -574,6 +626,7 @@ static vg_status draw_panels(cairo_t *cr, const figure *f, vg_error *err)
     free(s);
     free(q);
     free(w);
+    free(h);
     free(seg);
     return VG_OK;
 }
@@ -700,6 +753,22 @@ static void layout(figure *f, int nsub_lines)
            TICK_LEN + 1.6 * FS_TICK + 1.4 * FS_LABEL + 4.0;
 }
 
+/* "odorant velarone (20 modes) against velarone-d" for a sweep that maps a
+ * many-mode odorant; names escaped for Pango markup. */
+static void odorant_markup(const vg_config *cfg, char *buf, size_t len)
+{
+    const vg_odorant *od = vg_config_mapped(cfg), *other = vg_config_against(cfg);
+    char *a = g_markup_escape_text(od->name, -1);
+    char *b = g_markup_escape_text(other ? other->name : "", -1);
+    char modes[32] = "";
+
+    if (od->light)
+        snprintf(modes, sizeof modes, " (%zu modes)", od->light->n);
+    snprintf(buf, len, "odorant %s%s%s%s", a, modes, other ? " against " : "", b);
+    g_free(a);
+    g_free(b);
+}
+
 static void titles(figure *f)
 {
     char *t = g_markup_escape_text(f->cfg->title[0] ? f->cfg->title : "vibrogate sweep", -1);
@@ -712,20 +781,26 @@ static void titles(figure *f)
         char v[160];
         if (p == (int)f->ax.p || p == (int)f->ay.p || p == f->fs->panels || p == f->fs->rows)
             continue;
-        if (f->field && f->cfg->uncertainty.has[p])
+        if ((p == VG_P_MODE || p == VG_P_HUANG_RHYS) && vg_config_mapped(f->cfg)) {
+            if (p == VG_P_HUANG_RHYS) /* the odorant's table replaces both */
+                continue;
+            odorant_markup(f->cfg, v, sizeof v);
+        } else if (f->field && f->cfg->uncertainty.has[p])
             snprintf(v, sizeof v, "%s from its prior", symbol_markup((vg_param_id)p));
         else
             value_markup(f->cfg, (vg_param_id)p, f->fixed[p], v, sizeof v);
         used += (size_t)snprintf(f->sub + used, sizeof f->sub - used, ",  %s", v);
     }
     if (used < sizeof f->sub && !f->ratio)
-        snprintf(f->sub + used, sizeof f->sub - used, "\n%s;  model prediction",
-                 f->field && f->field->note ? f->field->note : "");
+        snprintf(f->sub + used, sizeof f->sub - used, "\n%s%s;  model prediction",
+                 f->field && f->field->note ? f->field->note : "",
+                 f->valid ? ";  hatched: model not valid" : "");
     else if (used < sizeof f->sub)
         snprintf(f->sub + used, sizeof f->sub - used,
                  "\nblack line: <i>k</i><sub>assisted</sub> = <i>k</i><sub>elastic</sub>%s%s"
-                 ";  model prediction", f->fs->ncontours ? ";  dashed: extra levels" : "",
-                 f->feasible ? ";  white line: feasibility window" : "");
+                 "%s;  model prediction", f->fs->ncontours ? ";  dashed: extra levels" : "",
+                 f->feasible ? ";  white line: feasibility window" : "",
+                 f->valid ? ";  hatched: model not valid" : "");
 }
 
 /* ----------------------------------------------------------- per file --- */
@@ -829,6 +904,7 @@ static void figure_free(figure *f)
 {
     free((double *)f->ratio);
     free((double *)f->feasible);
+    free((double *)f->valid);
     axis_free(&f->ax);
     axis_free(&f->ay);
 }
@@ -855,6 +931,11 @@ static vg_status figure_init(figure *f, const vg_dataset *ds, vg_error *err)
         double *feas = NULL;
         st = read_metric(ds, VG_M_FEASIBLE, &feas, err);
         f->feasible = feas;
+    }
+    if (st == VG_OK && ds->cfg.metric_on[VG_M_VALID]) {
+        double *valid = NULL;
+        st = read_metric(ds, VG_M_VALID, &valid, err);
+        f->valid = valid;
     }
     if (st != VG_OK)
         figure_free(f);

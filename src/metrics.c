@@ -42,6 +42,14 @@ static const vg_metric_info metric_table[VG_N_METRICS] = {
     [VG_M_FEASIBLE] = {"feasible", "1",
                        "1 where every feasibility condition holds, else 0",
                        VG_NEEDS_FEASIBILITY},
+    [VG_M_DISCRIMINATION] = {"discrimination", "1",
+                             "discrimination: total rate with the odorant over that with "
+                             "the odorant compared against", VG_NEEDS_DISCRIMINATION},
+    [VG_M_LOG10_DISCRIMINATION] = {"log10_discrimination", "1",
+                                   "log10 of the discrimination", VG_NEEDS_DISCRIMINATION},
+    [VG_M_VALID] = {"valid", "1",
+                    "1 where every enabled validity criterion of the model holds, else 0",
+                    VG_NEEDS_VALIDITY},
 };
 
 const vg_metric_info *vg_metric_get(vg_metric_id id)
@@ -127,14 +135,37 @@ int vg_require_holds(const vg_require_set *req, const double m[VG_N_METRICS])
     return 1;
 }
 
-void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
-                        const vg_require_set *req, double out[VG_N_METRICS])
+/* The discrimination from the prefactor-free totals, as the isotope effect:
+ * the prefactor holds V, lambda and T only, the same for both odorants. */
+static void other_metrics(const vg_rates *light, const vg_rates *other,
+                          double out[VG_N_METRICS])
+{
+    double l10 = (light->ln_fc_total - other->ln_fc_total) * VG_LOG10E;
+
+    out[VG_M_LOG10_DISCRIMINATION] = l10;
+    out[VG_M_DISCRIMINATION] = fabs(l10) <= ISOTOPE_LOG10_MAX
+                               ? exp(light->ln_fc_total - other->ln_fc_total) : VG_FILL;
+}
+
+void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
+                             const vg_rates *other, double valid,
+                             const vg_require_set *req, double out[VG_N_METRICS])
 {
     light_metrics(light, out);
     out[VG_M_LOG10_K_TOTAL_HEAVY] = out[VG_M_ISOTOPE_EFFECT] = VG_FILL;
     out[VG_M_LOG10_ISOTOPE_EFFECT] = out[VG_M_FEASIBLE] = VG_FILL;
+    out[VG_M_DISCRIMINATION] = out[VG_M_LOG10_DISCRIMINATION] = VG_FILL;
+    out[VG_M_VALID] = valid;
     if (heavy)
         heavy_metrics(light, heavy, out);
+    if (other)
+        other_metrics(light, other, out);
     if (req && req->n > 0)
         out[VG_M_FEASIBLE] = vg_require_holds(req, out) ? 1.0 : 0.0;
+}
+
+void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
+                        const vg_require_set *req, double out[VG_N_METRICS])
+{
+    vg_metrics_compute_full(light, heavy, NULL, VG_FILL, req, out);
 }

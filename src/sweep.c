@@ -7,6 +7,12 @@
  * weight table is a cache of ln W_n over the channels the grid can reach;
  * the kernel computes the same values with or without it, which is what
  * keeps the output independent of how points are split between threads.
+ *
+ * A many-mode odorant ([model] odorant) replaces the single mode: each
+ * thread evaluates the many-mode engine over the whole gap axis of a
+ * (temperature, coupling, reorganization) row at once and keeps the row,
+ * so a point's bits do not depend on where a block boundary cuts the row
+ * (the engine's lattice covers the gaps of its call, vg_multimode.h).
  */
 #define _POSIX_C_SOURCE 200809L
 #include <math.h>
@@ -19,8 +25,10 @@
 #include <omp.h>
 #endif
 
+#include "vg_const.h"
 #include "vg_evaluate.h"
 #include "vg_metrics.h"
+#include "vg_multimode.h"
 #include "vg_sweep.h"
 
 /* Largest weight table per thread (entries); channels outside it are
@@ -39,8 +47,20 @@ typedef struct {
     unsigned *qgen;
 } track;
 
+/* The many-mode rows of one thread: the mapped odorant, its heavy form
+ * ([isotope]) and the odorant compared against ([model] against). */
+#define ODOR_TRACKS 3
+
+typedef struct {
+    vg_multimode_work *mw;
+    vg_multimode_rates *mm;            /* one row of the gap axis */
+    vg_rates *rates[ODOR_TRACKS];      /* the same as kernel records */
+    size_t key;                        /* (T, V, lambda) row held, or SIZE_MAX */
+} odor_rows;
+
 typedef struct {
     track t[2];            /* light, heavy ([isotope] only) */
+    odor_rows o;           /* [model] odorant only */
     size_t key;            /* index of the (S, mode, T) triple, or SIZE_MAX */
     size_t row_key;        /* index of the (S, mode, T, V, lambda) row, or SIZE_MAX */
     vg_status status;      /* first failure of this thread */
@@ -170,6 +190,16 @@ static void fail(worker *w, vg_status st, size_t flat, double *out)
         out[m] = VG_FILL;
 }
 
+/* The valid metric at the point idx (vg_evaluate_valid). */
+static vg_status point_valid(const vg_config *cfg, const size_t idx[VG_NPARAM], double mode,
+                             double t1, const vg_rates *r, double *valid, vg_error *err)
+{
+    return vg_evaluate_valid(cfg, cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]],
+                             cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
+                             cfg->param[VG_P_TEMPERATURE].v[idx[VG_P_TEMPERATURE]], mode, t1, r,
+                             valid, err);
+}
+
 /* A segment of points that differ only in gap (consecutive along the gap
  * axis, or one point when gap is not the fastest axis): the weights' record
  * when the (S, mode, T) triple changes, the row's when (V, lambda) change
@@ -199,20 +229,212 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
     w->row_key = st == VG_OK ? row_key : SIZE_MAX;
     for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
         vg_rates rates[2];
+        double valid = VG_FILL;
         for (int k = 0; k < niso && st == VG_OK; k++)
             st = vg_rate_eval_row(&w->t[k].mode, &w->t[k].row, gap[j], cfg->tolerance,
                                   &rates[k], &w->err);
+        if (st == VG_OK)
+            st = point_valid(cfg, idx, cfg->param[VG_P_MODE].v[idx[VG_P_MODE]],
+                             cfg->validity.t1_ps, &rates[0], &valid, &w->err);
         if (st != VG_OK) { /* the sweep stops at this chunk: fill the rest */
             for (; j < n; j++, out += VG_N_METRICS)
                 fail(w, st, flat + j, out);
             w->row_key = SIZE_MAX;
             return;
         }
-        vg_metrics_compute(&rates[0], niso > 1 ? &rates[1] : NULL, &cfg->feasibility, out);
+        vg_metrics_compute_full(&rates[0], niso > 1 ? &rates[1] : NULL, NULL, valid,
+                                &cfg->feasibility, out);
     }
 }
 
 #define BLOCK 1024
+
+/* ------------------------------------------------ many-mode odorants --- */
+
+/* The systems of a sweep with [model] odorant: the mapped odorant, its
+ * heavy form when [isotope] is on, the odorant compared against when
+ * [model] against names one (NULL where absent). */
+static void odor_systems(const vg_config *cfg, vg_multimode_system sys[ODOR_TRACKS])
+{
+    const vg_odorant *od = vg_config_mapped(cfg), *other = vg_config_against(cfg);
+    const vg_modes *t[ODOR_TRACKS] = {od->light, cfg->isotope.on ? od->heavy : NULL,
+                                      other ? other->light : NULL};
+
+    for (int k = 0; k < ODOR_TRACKS; k++) {
+        sys[k].stats = cfg->stats;
+        sys[k].n_modes = t[k] ? t[k]->n : 0;
+        sys[k].modes = t[k] ? t[k]->mode : NULL;
+    }
+}
+
+/* A many-mode result as a kernel record, so that the metrics are formed by
+ * the same code as the single mode's.  The prefactor-free parts are the
+ * densities F (meV^-1), the bare part the normalised Marcus Gaussian; the
+ * metrics use only their differences and the rates. */
+static void odor_record(const vg_multimode_rates *r, double gap, double reorg, double V,
+                        double T, vg_rates *o)
+{
+    double kT = VG_KB_MEV * T, d = gap - reorg;
+
+    memset(o, 0, sizeof *o);
+    o->assisted_zero = r->assisted_zero;
+    o->coupling_zero = r->coupling_zero;
+    o->ln_fc_total = r->ln_f_total;
+    o->ln_fc_elastic = r->ln_f_elastic;
+    o->ln_fc_assisted = r->assisted_zero ? -HUGE_VAL : r->ln_f_assisted;
+    o->ln_fc_bare = -0.5 * log(4.0 * VG_PI * reorg * kT) - d * d / (4.0 * reorg * kT);
+    o->ln_k_total = r->ln_k_total;
+    o->ln_k_elastic = r->ln_k_elastic;
+    o->ln_k_assisted = r->ln_k_assisted;
+    o->ln_k_bare = r->coupling_zero ? -HUGE_VAL : vg_rate_ln_marcus(gap, reorg, V, T);
+    o->assisted_fraction = r->assisted_zero ? 0.0
+                           : fmin(1.0, exp(r->ln_f_assisted - r->ln_f_total));
+}
+
+/* No NaN and no infinity in a record but the -inf its flags stand for (the
+ * engine promises this; the sweep checks it, as the kernel checks its own). */
+static int odor_record_finite(const vg_rates *o)
+{
+    return isfinite(o->ln_fc_total) && isfinite(o->ln_fc_elastic) && isfinite(o->ln_fc_bare)
+           && (o->assisted_zero || isfinite(o->ln_fc_assisted))
+           && (o->coupling_zero || (isfinite(o->ln_k_total) && isfinite(o->ln_k_elastic)
+                                    && isfinite(o->ln_k_bare)
+                                    && (o->assisted_zero || isfinite(o->ln_k_assisted))))
+           && o->assisted_fraction >= 0.0 && o->assisted_fraction <= 1.0;
+}
+
+/* The section name of track k, for messages. */
+static const char *track_name(const vg_config *cfg, int k)
+{
+    const vg_odorant *od = k == 2 ? vg_config_against(cfg) : vg_config_mapped(cfg);
+
+    return od ? od->name : "";
+}
+
+/* Every track's rates over the whole gap axis of one row. */
+static vg_status odor_row(worker *w, const vg_config *cfg, double reorg, double V, double T)
+{
+    const vg_param *gp = &cfg->param[VG_P_GAP];
+    vg_multimode_system sys[ODOR_TRACKS];
+    vg_status st = VG_OK;
+
+    odor_systems(cfg, sys);
+    for (int k = 0; k < ODOR_TRACKS && st == VG_OK; k++) {
+        if (!sys[k].modes)
+            continue;
+        st = vg_multimode_eval(w->o.mw, &sys[k], reorg, T, V, cfg->tolerance, gp->n, gp->v,
+                               w->o.mm, &w->err);
+        if (st != VG_OK) {
+            vg_error_prefix(&w->err, "[odorant.%s]: ",
+                            track_name(cfg, k));
+            if (k == 1)
+                vg_error_prefix(&w->err, "heavy isotopologue of ");
+            break;
+        }
+        for (size_t j = 0; j < gp->n && st == VG_OK; j++) {
+            vg_rates *o = &w->o.rates[k][j];
+            odor_record(&w->o.mm[j], gp->v[j], reorg, V, T, o);
+            if (!odor_record_finite(o))
+                st = vg_error_set(&w->err, VG_ENUMERIC, "[odorant.%s]: the many-mode engine "
+                                  "gave a non-finite rate at gap %g meV, reorganization %g meV, "
+                                  "coupling %g meV, temperature %g K", track_name(cfg, k),
+                                  gp->v[j], reorg, V, T);
+        }
+    }
+    return st;
+}
+
+/* A segment of a sweep with [model] odorant (see segment). */
+static void odor_segment(worker *w, const vg_grid *g, const size_t idx[VG_NPARAM], size_t n,
+                         size_t flat, double *out)
+{
+    const vg_config *cfg = g->cfg;
+    size_t row_key = (idx[VG_P_TEMPERATURE] * cfg->param[VG_P_COUPLING].n + idx[VG_P_COUPLING])
+                     * cfg->param[VG_P_REORG].n + idx[VG_P_REORG];
+    const vg_odorant *od = vg_config_mapped(cfg);
+    vg_status st = VG_OK;
+    size_t j0 = idx[VG_P_GAP];
+    double mode, t1;
+
+    if (w->o.key != row_key) {
+        st = odor_row(w, cfg, cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
+                      cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]],
+                      cfg->param[VG_P_TEMPERATURE].v[idx[VG_P_TEMPERATURE]]);
+        w->o.key = st == VG_OK ? row_key : SIZE_MAX;
+    }
+    vg_valid_modes_inputs(od->light->mode, od->light->n, cfg->validity.t1_ps, &mode, &t1);
+    for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
+        double valid = VG_FILL;
+        if (st == VG_OK)
+            st = point_valid(cfg, idx, mode, t1, &w->o.rates[0][j0 + j], &valid, &w->err);
+        if (st != VG_OK) {
+            fail(w, st, flat + j, out);
+            w->o.key = SIZE_MAX;
+            continue;
+        }
+        vg_metrics_compute_full(&w->o.rates[0][j0 + j],
+                                cfg->isotope.on ? &w->o.rates[1][j0 + j] : NULL,
+                                vg_config_against(cfg) ? &w->o.rates[2][j0 + j] : NULL, valid,
+                                &cfg->feasibility, out);
+    }
+}
+
+/* The many-mode workspace of every thread, sized for the largest row of
+ * the grid: vg_multimode_need at every (reorganization, temperature) pair
+ * over the whole gap axis, for every track. */
+static vg_status odor_alloc(worker *ws, int nthreads, const vg_grid *g, vg_error *err)
+{
+    const vg_config *cfg = g->cfg;
+    const vg_param *gp = &cfg->param[VG_P_GAP], *lp = &cfg->param[VG_P_REORG];
+    const vg_param *tp = &cfg->param[VG_P_TEMPERATURE];
+    vg_multimode_system sys[ODOR_TRACKS];
+    size_t points = 0, max_modes = 1;
+    double work = 0.0, glo, ghi;
+    vg_status st = VG_OK;
+
+    odor_systems(cfg, sys);
+    minmax(gp, &glo, &ghi);
+    for (int k = 0; k < ODOR_TRACKS; k++) {
+        if (!sys[k].modes)
+            continue;
+        max_modes = sys[k].n_modes > max_modes ? sys[k].n_modes : max_modes;
+        for (size_t a = 0; a < lp->n && st == VG_OK; a++)
+            for (size_t b = 0; b < tp->n && st == VG_OK; b++) {
+                size_t pk = 0;
+                double wk = 0.0;
+                st = vg_multimode_check(&sys[k], lp->v[a], tp->v[b], err);
+                if (st == VG_OK)
+                    st = vg_multimode_need(&sys[k], lp->v[a], tp->v[b], glo, ghi, gp->n,
+                                           cfg->tolerance, &pk, &wk, err);
+                points = pk > points ? pk : points;
+                work = wk > work ? wk : work;
+            }
+        if (st != VG_OK) {
+            vg_error_prefix(err, "[odorant.%s]: ",
+                            track_name(cfg, k));
+            return st;
+        }
+    }
+    for (int t = 0; t < nthreads && st == VG_OK; t++) {
+        odor_rows *o = &ws[t].o;
+        o->key = SIZE_MAX;
+        st = vg_multimode_alloc(max_modes, 2 * points + 64, 4.0 * work + 1e6, &o->mw, err);
+        o->mm = st == VG_OK ? malloc(gp->n * sizeof *o->mm) : NULL;
+        for (int k = 0; k < ODOR_TRACKS && st == VG_OK; k++)
+            o->rates[k] = malloc(gp->n * sizeof *o->rates[k]);
+        if (st == VG_OK && (!o->mm || !o->rates[0] || !o->rates[1] || !o->rates[2]))
+            st = vg_error_set(err, VG_ENOMEM, "out of memory for the many-mode rows");
+    }
+    return st;
+}
+
+static void odor_free(odor_rows *o)
+{
+    vg_multimode_free(o->mw);
+    free(o->mm);
+    for (int k = 0; k < ODOR_TRACKS; k++)
+        free(o->rates[k]);
+}
 
 /* Points are dealt to threads in blocks of BLOCK rather than one half of
  * the chunk each, because cost varies along the grid (larger
@@ -244,7 +466,10 @@ static void compute_chunk(worker *ws, int nthreads, const vg_grid *g, const reac
                 n = g->dim[g->naxes - 1] - o.c[g->naxes - 1];
                 n = n < i1 - i ? n : i1 - i;
             }
-            segment(w, g, r, idx, n, start + i, metrics + i * VG_N_METRICS);
+            if (vg_config_mapped(g->cfg))
+                odor_segment(w, g, idx, n, start + i, metrics + i * VG_N_METRICS);
+            else
+                segment(w, g, r, idx, n, start + i, metrics + i * VG_N_METRICS);
             i += n;
             odo_advance(&o, n);
         }
@@ -301,6 +526,7 @@ static void workers_free(worker *ws, int nthreads)
             free(ws[t].t[k].qi);
             free(ws[t].t[k].qgen);
         }
+        odor_free(&ws[t].o);
     }
     free(ws);
 }
@@ -376,7 +602,9 @@ vg_status vg_sweep_run(const vg_grid *g, const vg_sweep_opts *opts,
         st = vg_error_set(err, VG_ENOMEM, "out of memory for %d sweep workspaces", nthreads);
         goto out_free;
     }
-    st = run_chunks(g, opts, ws, nthreads, metrics, chunk, sink, ctx, err);
+    st = vg_config_mapped(g->cfg) ? odor_alloc(ws, nthreads, g, err) : VG_OK;
+    if (st == VG_OK)
+        st = run_chunks(g, opts, ws, nthreads, metrics, chunk, sink, ctx, err);
 out_free:
     free(metrics);
     workers_free(ws, nthreads);

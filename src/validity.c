@@ -309,3 +309,23 @@ vg_status vg_valid_evaluate(const vg_valid_settings *s, const vg_valid_point *p,
     }
     return VG_OK;
 }
+
+void vg_valid_modes_inputs(const vg_multimode_mode *modes, size_t n, double t1_default,
+                           double *mode_meV, double *t1_ps)
+{
+    int any = 0;
+
+    *mode_meV = modes[0].mode;
+    *t1_ps = 0.0;
+    for (size_t i = 0; i < n; i++) {
+        const vg_multimode_mode *m = &modes[i];
+        double life = isfinite(m->lifetime_ps) ? m->lifetime_ps : t1_default;
+        if (!(m->huang_rhys > 0.0)) {
+            *mode_meV = any ? *mode_meV : fmin(*mode_meV, m->mode);
+            continue;
+        }
+        *mode_meV = any ? fmin(*mode_meV, m->mode) : m->mode;
+        *t1_ps = any ? fmax(*t1_ps, life) : life;
+        any = 1;
+    }
+}

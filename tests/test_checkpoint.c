@@ -38,8 +38,8 @@
 #define DIR_LEN 128  /* a test's directory */
 #define PATH_LEN 512 /* a file in it */
 
-_Static_assert(VG_N_METRICS == 11, "all_on lists every metric");
-static const int all_on[VG_N_METRICS] = {1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1};
+_Static_assert(VG_N_METRICS == 14, "all_on lists every metric");
+static const int all_on[VG_N_METRICS] = {1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1};
 
 static char root[64];
 static int dir_count;
@@ -49,7 +49,7 @@ static int dir_count;
 static vg_ckpt_inputs base_inputs(void)
 {
     vg_ckpt_inputs in = {"0.1.0", "[parameters]\ngap = 0 .. 600 meV, 11 points\n",
-                         "parameters.temperature=287.5 K", NPOINTS, CHUNK, 3u, all_on};
+                         "parameters.temperature=287.5 K", NPOINTS, CHUNK, 3u, all_on, 0};
     return in;
 }
 
@@ -577,7 +577,12 @@ static void refusals_change_nothing(void **state)
     in.config_text = "[parameters]\n";
     assert_int_equal(vg_ckpt_open(&ck, &rq, &in, &err), VG_EUSAGE);
     assert_non_null(strstr(err.msg, "different config or version (8 of 10 points done; the "
-                                    "config text differs)"));
+                                    "config text (or a mode table it names) differs)"));
+    /* the same text, but a mode table it names changed since the run began */
+    in = base_inputs();
+    in.tables = 0x1234u;
+    assert_int_equal(vg_ckpt_open(&ck, &rq, &in, &err), VG_EUSAGE);
+    assert_non_null(strstr(err.msg, "(or a mode table it names) differs"));
     after = read_all(path, &n1);
     assert_int_equal(n0, n1);
     assert_memory_equal(before, after, n0);

@@ -676,14 +676,14 @@ static void test_file_errors(void **state)
         {"gap = 1 meV\n", "@FILE@:1: key 'gap' comes before any section header (it belongs "
                           "in [parameters])"},
         {"q = 1\n", "@FILE@:1: key 'q' comes before any section header (start with "
-                    "[scenario], [parameters], [model], [output], [isotope], [feasibility] "
-                    "or [uncertainty])"},
+                    "[scenario], [parameters], [model], [output], [isotope], [feasibility], "
+                    "[uncertainty] or [validity])"},
         {"[paramters]\n", "@FILE@:1: unknown section '[paramters]' (did you mean "
                           "'[parameters]'?)"},
         {"[Output]\n", "@FILE@:1: unknown section '[Output]' (did you mean '[output]'?)"},
         {"[parameters]\n[results]\n", "@FILE@:2: unknown section '[results]' (allowed: "
                                       "[scenario], [parameters], [model], [output], "
-                                      "[isotope], [feasibility], [uncertainty])"},
+                                      "[isotope], [feasibility], [uncertainty], [validity])"},
         {"[ parameters ]\n", "@FILE@:1: unknown section '[ parameters ]' (did you mean "
                              "'[parameters]'?)"},
         {"[parameters\n", "@FILE@:1: section header '[parameters' has no closing ']'"},
@@ -740,7 +740,7 @@ static void test_file_errors(void **state)
         {"[output]\nmetrics = speed\n", "@FILE@:2: unknown metric 'speed' in 'metrics' "
          "(allowed: log10_k_elastic, log10_k_assisted, log10_k_total, log10_k_bare, "
          "log10_ratio, assisted_fraction, log10_contrast, log10_k_total_heavy, "
-         "isotope_effect, log10_isotope_effect, feasible)"},
+         "isotope_effect, log10_isotope_effect, feasible, discrimination, log10_discrimination, valid)"},
         {"[output]\nmax_size = 500\n", "@FILE@:2: 'max_size' needs a unit: bytes, B, kB, MB, "
                                        "GB, TB, KiB, MiB, GiB or TiB (got '500')"},
         {"[output]\nmax_size = 5 PB\n", "@FILE@:2: unknown unit 'PB' for 'max_size' "
@@ -795,7 +795,7 @@ static void test_first_mistake(void **state)
                                                "cm^-1, kJ/mol or kcal/mol (got '250')"},
         {"[bogus]\n[parameters]\ngap = 250\n", "@FILE@:1: unknown section '[bogus]' (allowed: "
                                                "[scenario], [parameters], [model], [output], "
-                                               "[isotope], [feasibility], [uncertainty])"},
+                                               "[isotope], [feasibility], [uncertainty], [validity])"},
         {"[parameters]\ngap = 1 meV\n[output]\nmax_size = 1 kB\ndata = xml\n",
          "@FILE@:5: unknown data format 'xml' in 'data' (allowed: netcdf, csv)"},
         {"[parameters]\ngap = 1 meV\n[scenario]\ntitle = \xFF\n", "@FILE@:4: invalid UTF-8 at "
@@ -1181,14 +1181,14 @@ static void test_figure_errors(void **state)
         {"maps = rate\n", "9: unknown metric 'rate' in 'maps' (allowed: log10_k_elastic, "
                           "log10_k_assisted, log10_k_total, log10_k_bare, log10_ratio, "
                           "assisted_fraction, log10_contrast, log10_k_total_heavy, "
-                          "isotope_effect, log10_isotope_effect, feasible)"},
+                          "isotope_effect, log10_isotope_effect, feasible, discrimination, log10_discrimination, valid)"},
         {"maps = log10_ratio, log10_k_total, log10_ratio\n", "9: metric 'log10_ratio' appears "
                                                              "twice in 'maps'"},
         {"maps = log10_ratio,\n", "9: empty item in the list of 'maps' (allowed: "
                                   "log10_k_elastic, log10_k_assisted, log10_k_total, "
                                   "log10_k_bare, log10_ratio, assisted_fraction, "
                                   "log10_contrast, log10_k_total_heavy, isotope_effect, "
-                                  "log10_isotope_effect, feasible)"},
+                                  "log10_isotope_effect, feasible, discrimination, log10_discrimination, valid)"},
         {"x = temp\n", "9: unknown parameter 'temp' in 'x' (did you mean 'temperature'?)"},
         {"x = voltage\n", "9: unknown parameter 'voltage' in 'x' (allowed: gap, "
                           "reorganization, electronic_coupling, huang_rhys, mode, "
@@ -1538,8 +1538,9 @@ static int run_case(const char *dir, const char *name)
     }
     free(text);
     st = load_for_maps(&cfg, ini, nset, setp, &err);
-    /* the commands of the catalogue (check, sweep) refuse odorants after loading */
-    if (st == VG_OK && (st = vg_config_refuse_odorants(&cfg, command, &err)) != VG_OK)
+    /* the commands of the catalogue (check, sweep) refuse odorants after
+     * loading, unless [model] odorant names one (and the engine is sum) */
+    if (st == VG_OK && (st = vg_config_check_mapped_odorant(&cfg, command, &err)) != VG_OK)
         vg_config_free(&cfg);
     if ((int)st == atoi(status) && strncmp(want, "vibrogate: ", 11) == 0 &&
         message_matches(err.msg, want + 11, ini))

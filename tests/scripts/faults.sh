@@ -32,10 +32,16 @@
 # keeps the work, the `--resume` the message prints must finish the run once
 # the fault is gone, with a sweep.csv equal (cmp) to an uninterrupted run's.
 #
-# TODO: a mode table that disappears mid-run.  The reader of mode tables
-# does not exist yet; when it does, add the case here (the table removed or
-# truncated while the sweep reads it: exit status, one line, no output under
-# a final name, earlier outputs unchanged).  Nothing is checked for it now.
+# A mode table that disappears or changes during a sweep that maps a
+# many-mode odorant ([model] odorant): the sweep reads its tables once, when
+# it loads the config, so a table removed while the grid is computed does
+# not touch the run, which must finish with the output of an uninterrupted
+# run.  The table matters again when a killed run is resumed: removed or
+# emptied, the resume must stop with exit status 3 and one line naming the
+# table and the reason, keep the checkpoint and leave the earlier outputs
+# byte-identical; changed, the checkpoint must refuse it (exit status 2,
+# "... a mode table it names ... differs"); restored, the resume must finish
+# with the uninterrupted run's sweep.csv.
 #
 # Prints one line `PASS: what` or `FAIL: what: why` per check; a check that
 # cannot be made here says `SKIP: what: why` (neither passed nor failed).
@@ -79,7 +85,8 @@ EOF
 }
 
 # The second run's values (different from the earlier run's); BIG also
-# makes the checkpoint (56 bytes a point) larger than the space left.
+# makes the checkpoint (8 bytes per metric a point, 112 bytes) larger than
+# the space left.
 OTHER='parameters.gap=0 .. 500 meV, 11 points'
 BIG='parameters.gap=0 .. 600 meV, 300 points' # 2100 points
 
@@ -87,6 +94,15 @@ sweep() { # DIR [options...]: the program on the test config, quietly
     _out=$1
     shift
     "$VG" sweep "$CFG" --out "$_out" --quiet "$@"
+}
+
+# The same for a run started with `&`: the background subshell becomes the
+# program (exec), so that $! is the program's own process, which a signal
+# must reach (sweep's subshell would forward no SIGSTOP or SIGKILL).
+sweep_bg() {
+    _out=$1
+    shift
+    exec "$VG" sweep "$CFG" --out "$_out" --quiet "$@"
 }
 
 # earlier DIR: a successful run into DIR and the checksums of its files in
@@ -218,16 +234,17 @@ then_resume() {
     resumed "$1" "$d" "$T/ref-big/sweep.csv" --set "$BIG" --chunk 256
 }
 
-# Full disk while computing: 16 pages free, the checkpoint of BIG needs 30.
+# Full disk while computing: 16 pages free, the checkpoint of BIG needs 58
+# (2100 points of VG_N_METRICS = 14 doubles).
 ns_full_compute() {
     full_big full1 16 "full disk while computing" && then_resume "full disk while computing"
 }
 
-# Full disk while the data files are written: 48 pages free hold the
-# checkpoint (30) but not sweep.csv of BIG (about 70).
+# Full disk while the data files are written: 64 pages free hold the
+# checkpoint (58 and its record) but not sweep.csv of BIG (about 100).
 ns_full_write() {
     name="full disk while writing the data files"
-    full_big full2 48 "$name" || return
+    full_big full2 64 "$name" || return
     if [ "$(sed -n '5s/^done //p' "$d/.vibrogate-run/state" 2>/dev/null)" = 2100 ]; then
         pass "$name: the fault came after the grid was computed"
     else
@@ -462,7 +479,7 @@ hold() { kill -STOP "$pid" 2>/dev/null && wait_for held; }
 
 d="$T/gone"
 earlier "$d"
-sweep "$d" --set "$LONG" --set 'output.figures=none' --chunk 1024 2>"$T/err" &
+sweep_bg "$d" --set "$LONG" --set 'output.figures=none' --chunk 1024 2>"$T/err" &
 pid=$!
 if wait_for computing && hold; then
     done_at=$(state_done "$d")
@@ -495,7 +512,7 @@ fi
 
 d="$T/moved"
 earlier "$d"
-sweep "$d" --set "$LONG" --set 'output.figures=none' --set 'output.data=netcdf' 2>"$T/err" &
+sweep_bg "$d" --set "$LONG" --set 'output.figures=none' --set 'output.data=netcdf' 2>"$T/err" &
 pid=$!
 if wait_for writing && hold; then
     mv "$d" "$d.away"
@@ -550,4 +567,127 @@ if [ "$got" -ge 0 ]; then
     else
         fail "config without read permission" "exit $got, stderr '$(cat "$T/err")', wanted 3 and '$want'"
     fi
+fi
+
+# -- mode tables of a many-mode odorant (see the header)
+TAB="$T/tables"
+mkdir "$TAB"
+write_table() { printf 'energy_meV, huang_rhys\n180, 0.12\n95, %s\n' "$1" >"$TAB/a.csv"; }
+write_table 0.3
+cat >"$T/odorant.ini" <<EOF
+; fault tests (invented values): a two-mode odorant
+[parameters]
+gap = 0 .. 600 meV, 400 points
+reorganization = 20 .. 300 meV, 160 points, log
+electronic_coupling = 1 meV
+huang_rhys = 0.05
+mode = 200 meV
+temperature = 300 K
+[model]
+odorant = a
+[odorant.a]
+modes = $TAB/a.csv
+[output]
+data = netcdf, csv
+figures = png
+EOF
+CFG="$T/odorant.ini"
+OTHER='parameters.electronic_coupling=2 meV'
+sweep "$T/ref-odorant" --set "$OTHER" >/dev/null 2>"$T/err" ||
+    fail "odorant reference run" "$(cat "$T/err")"
+
+d="$T/table-gone"
+earlier "$d"
+sweep_bg "$d" --set "$OTHER" --chunk 256 2>"$T/err" &
+pid=$!
+if wait_for computing && hold; then
+    rm "$TAB/a.csv"
+    kill -CONT "$pid"
+    wait "$pid"
+    got=$?
+    pid=""
+    if [ "$got" -eq 0 ] && cmp -s "$d/sweep.csv" "$T/ref-odorant/sweep.csv"; then
+        pass "mode table removed while the grid is computed: the run, which read it at the start, finishes (exit 0) with an uninterrupted run's sweep.csv"
+    else
+        fail "mode table removed while the grid is computed" "exit $got ($(cat "$T/err"))"
+    fi
+else
+    fail "mode table removed while the grid is computed" "the run was not caught computing"
+    wait "$pid"
+    pid=""
+fi
+write_table 0.3
+
+# killed WHAT DIR: a run into DIR (which then holds an earlier run's
+# outputs) killed with SIGKILL while it computes; 0 once caught in time.
+killed() {
+    earlier "$2" || return 1
+    sweep_bg "$2" --set "$OTHER" --chunk 256 2>"$T/err" &
+    pid=$!
+    if wait_for computing && kill -9 "$pid"; then
+        wait "$pid" 2>/dev/null
+        pid=""
+        return 0
+    fi
+    fail "$1" "the run was not caught computing"
+    wait "$pid"
+    pid=""
+    return 1
+}
+
+# after_kill WHAT DIR STATUS TEXT: the resume just made (exit $got, stderr
+# in $T/err) must stop with STATUS and one line holding TEXT (compared
+# without regard to case), keep the checkpoint, and leave no new final name
+# and the earlier outputs byte-identical.
+after_kill() {
+    msg=$(cat "$T/err")
+    low=$(printf '%s' "$msg" | tr '[:upper:]' '[:lower:]')
+    ltext=$(printf '%s' "$4" | tr '[:upper:]' '[:lower:]')
+    case "$low" in "vibrogate: "*"$ltext"*) ok=1 ;; *) ok=0 ;; esac
+    if [ "$got" -eq "$3" ] && [ "$ok" -eq 1 ] && [ "$(wc -l <"$T/err")" -eq 1 ]; then
+        pass "$1: exit status $3 and one line saying '$4'"
+    else
+        fail "$1" "exit $got, wanted $3 and one line with '$4', got: $msg"
+    fi
+    extra=$(cd "$2" && ls -A | grep -vxF -e .vibrogate-run -f "$2.list")
+    if [ -z "$extra" ] && [ -d "$2/.vibrogate-run" ] &&
+        (cd "$2" && sha256sum -c --quiet "$2.sum" >/dev/null 2>&1); then
+        pass "$1: the checkpoint is kept, no new final name, the earlier outputs byte-identical"
+    else
+        fail "$1: files" "left: $(cd "$2" && ls -A | tr '\n' ' ')"
+    fi
+}
+
+d="$T/table-removed"
+if killed "mode table removed before a resume" "$d"; then
+    rm "$TAB/a.csv"
+    sweep "$d" --set "$OTHER" --chunk 256 --resume 2>"$T/err"
+    got=$?
+    after_kill "mode table removed before a resume" "$d" 3 \
+        "$TAB/a.csv: cannot open mode table: $(reason ENOENT)"
+    write_table 0.3
+    resumed "mode table removed before a resume, then restored" "$d" \
+        "$T/ref-odorant/sweep.csv" --set "$OTHER" --chunk 256
+fi
+
+d="$T/table-emptied"
+if killed "mode table emptied before a resume" "$d"; then
+    : >"$TAB/a.csv"
+    sweep "$d" --set "$OTHER" --chunk 256 --resume 2>"$T/err"
+    got=$?
+    after_kill "mode table emptied before a resume" "$d" 3 "$TAB/a.csv"
+    write_table 0.3
+    resumed "mode table emptied before a resume, then restored" "$d" \
+        "$T/ref-odorant/sweep.csv" --set "$OTHER" --chunk 256
+fi
+
+d="$T/table-changed"
+if killed "mode table changed before a resume" "$d"; then
+    write_table 0.31
+    sweep "$d" --set "$OTHER" --chunk 256 --resume 2>"$T/err"
+    got=$?
+    after_kill "mode table changed before a resume" "$d" 2 "(or a mode table it names) differs"
+    write_table 0.3
+    resumed "mode table changed before a resume, then restored" "$d" \
+        "$T/ref-odorant/sweep.csv" --set "$OTHER" --chunk 256
 fi
