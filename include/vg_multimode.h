@@ -74,8 +74,8 @@ typedef struct vg_multimode_work vg_multimode_work;
 
 /* Workspace for systems of up to max_modes modes and lattices (and weight
  * windows, and damped configurations) of up to max_points entries each; the
- * memory is about 57 max_points bytes.  max_work caps the terms (one
- * exp each, ~10 ns) one call of vg_multimode_eval may sum: a narrow
+ * memory is about 73 max_points bytes.  max_work caps the terms (a
+ * multiplication or an exp each) one call of vg_multimode_eval may sum: a narrow
  * environment (small lambda kT) against far-apart modes needs a fine, long
  * lattice, and the call is then refused instead of running for hours.
  * vg_multimode_need says what a parameter range needs.  Returns VG_ENOMEM,

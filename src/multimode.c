@@ -118,10 +118,11 @@ struct vg_multimode_work {
     size_t cap;
     double max_work;     /* terms (one exp each) a call may spend */
     mm_mode *md;
-    double *block;       /* the seven arrays below, cap entries each */
+    double *block;       /* the nine arrays below, cap entries each */
     double *wt;          /* ln W over the windows */
     double *ker;         /* one kernel */
     double *h, *h2;      /* the assisted lattice function and its successor */
+    double *eh, *ek;     /* e^(h - max h) and e^(ker - max ker), chain_step's */
     double *cf_lw;       /* damped configurations: ln weight, */
     double *cf_e;        /* energy taken up (meV), */
     double *cf_g;        /* Lorentzian half width (meV), */
@@ -161,16 +162,25 @@ static inline void lse_init(lse_acc *a)
     a->s = 0.0;
 }
 
-/* Online log-sum-exp: one exp per term. */
+/* Below this, exp(t - m) < 2^-54: added to a sum s >= 1 it rounds away. */
+#define LSE_NEGLIGIBLE (-38.0)
+
+/* Online log-sum-exp: one exp per term that can change the sum.  s >= 1
+ * once a term is in (the largest so far counts 1), so a term below
+ * e^LSE_NEGLIGIBLE of the running maximum leaves s unchanged bit for bit
+ * (e^-38 < 2^-54, under half an ulp of 1), and its exp is skipped. */
 static inline void lse_add(lse_acc *a, double t)
 {
     if (t == -HUGE_VAL)
         return;
     if (t <= a->m) {
-        a->s += exp(t - a->m);
+        if (t - a->m >= LSE_NEGLIGIBLE)
+            a->s += exp(t - a->m);
         return;
     }
-    a->s = a->s * exp(a->m - t) + 1.0;
+    /* below e^-746 exp returns 0 (by its slow underflow path): the same
+     * bits without the call; the first term (m = -inf, s = 0) likewise */
+    a->s = a->m - t < -746.0 ? 1.0 : a->s * exp(a->m - t) + 1.0;
     a->m = t;
 }
 
@@ -699,20 +709,73 @@ static double window_w0(const double *wt, const mm_mode *m)
 /* One step: h2 = delta (h * kernel) on the lattice, plus the exact term of
  * every earlier mode at n = 0 (ln weight lnz, Gaussian variance vnew) and
  * this mode's sticks n != 0. */
+/* e^(v[i] - max v) into e[i] for i < n; the maximum (-HUGE_VAL if every
+ * v[i] is). */
+static double scaled_exps(const double *v, size_t n, double *e)
+{
+    double mx = -HUGE_VAL;
+
+    for (size_t i = 0; i < n; i++)
+        mx = fmax(mx, v[i]);
+    for (size_t i = 0; i < n; i++) { /* below e^-745 exp is 0, by its slow path */
+        double d = v[i] - mx;
+        e[i] = mx == -HUGE_VAL || d < -745.0 ? 0.0 : exp(d);
+    }
+    return mx;
+}
+
+/* sum of a[i] b[-i] for i < n, in four running sums (a chain of
+ * dependent additions would wait on each one). */
+static double overlap_sum(const double *a, const double *b, long n)
+{
+    double s0 = 0.0, s1 = 0.0, s2 = 0.0, s3 = 0.0;
+    long i = 0;
+
+    for (; i + 4 <= n; i += 4) {
+        s0 += a[i] * b[-i];
+        s1 += a[i + 1] * b[-i - 1];
+        s2 += a[i + 2] * b[-i - 2];
+        s3 += a[i + 3] * b[-i - 3];
+    }
+    for (; i < n; i++)
+        s0 += a[i] * b[-i];
+    return (s0 + s1) + (s2 + s3);
+}
+
+/* A linear-domain sum below this (about e^-596 of the largest product) may
+ * have lost terms to underflow that matter; chain_step then sums in logs. */
+#define LINEAR_SUM_MIN 0x1p-860
+
+/* One step of the convolution H' = H * K of the lattice function with a
+ * mode's kernel, each entry a sum over the overlap of
+ * exp(h[k] + ker[l - k]).  First in the linear domain, with both arrays
+ * scaled by their maxima Mh, Mk (one exp per entry of each, then only
+ * multiplications): the terms left out by underflow are each below
+ * e^-708 of e^(Mh + Mk), so wherever the sum is at least LINEAR_SUM_MIN
+ * (e^-596) their total is below e^-100 of it.  Entries below that (the
+ * deep tails) are summed again term by term in the log domain. */
 static void chain_step(vg_multimode_work *w, const mm_plan *p, const mm_mode *m,
                        long hlo, long hhi, double lnz, double vnew)
 {
     long nlo = hlo + m->klo, nhi = hhi + m->khi;
+    double mh = scaled_exps(w->h, (size_t)(hhi - hlo + 1), w->eh);
+    double mk = scaled_exps(w->ker, (size_t)(m->khi - m->klo + 1), w->ek);
 
     for (long l = nlo; l <= nhi; l++) {
         long k0 = hlo > l - m->khi ? hlo : l - m->khi;
         long k1 = hhi < l - m->klo ? hhi : l - m->klo;
         lse_acc acc;
-        double zero = -HUGE_VAL;
+        double zero = -HUGE_VAL, lin = 0.0;
 
         lse_init(&acc);
-        for (long k = k0; k <= k1; k++)
-            lse_add(&acc, w->h[k - hlo] + w->ker[l - k - m->klo]);
+        lin = overlap_sum(w->eh + (k0 - hlo), w->ek + (l - k0 - m->klo), k1 - k0 + 1);
+        if (lin >= LINEAR_SUM_MIN) {
+            acc.m = mh + mk;
+            acc.s = lin;
+        } else {
+            for (long k = k0; k <= k1; k++)
+                lse_add(&acc, w->h[k - hlo] + w->ker[l - k - m->klo]);
+        }
         if (lnz > -HUGE_VAL)
             zero = lnz + stick_sum(w->wt, m, (double)l * p->delta, vnew, 1);
         w->h2[l - nlo] = lse2(p->ln_delta + lse_val(&acc), zero);
@@ -1209,7 +1272,7 @@ vg_status vg_multimode_alloc(size_t max_modes, size_t max_points, double max_wor
     if (!out)
         return vg_error_set(err, VG_EUSAGE, "many-mode workspace: no place for the result");
     *out = NULL;
-    if (max_modes == 0 || max_points == 0 || max_points > SIZE_MAX / (8 * sizeof(double))
+    if (max_modes == 0 || max_points == 0 || max_points > SIZE_MAX / (10 * sizeof(double))
         || !(max_work > 0.0))
         return vg_error_set(err, VG_EUSAGE,
                             "many-mode workspace: sizes must be > 0 (got %zu modes, %zu points, "
@@ -1221,7 +1284,7 @@ vg_status vg_multimode_alloc(size_t max_modes, size_t max_points, double max_wor
     w->cap = max_points;
     w->max_work = max_work;
     w->md = calloc(max_modes, sizeof *w->md);
-    w->block = malloc(7 * max_points * sizeof *w->block);
+    w->block = malloc(9 * max_points * sizeof *w->block);
     w->cf_net0 = malloc(max_points);
     if (!w->md || !w->block || !w->cf_net0) {
         vg_multimode_free(w);
@@ -1235,6 +1298,8 @@ vg_status vg_multimode_alloc(size_t max_modes, size_t max_points, double max_wor
     w->cf_lw = w->h2 + max_points;
     w->cf_e = w->cf_lw + max_points;
     w->cf_g = w->cf_e + max_points;
+    w->eh = w->cf_g + max_points;
+    w->ek = w->eh + max_points;
     *out = w;
     return VG_OK;
 }
