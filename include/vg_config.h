@@ -117,11 +117,15 @@ typedef struct {
     int modes_line;           /* line of 'modes' (0: not given, -1: --set) */
     int heavy_line;           /* line of 'heavy_modes' (0: not given) */
     int substitute_line;      /* line of 'substitute' (0: not given) */
+    int mode_line, hr_line;   /* lines of 'mode' and 'huang_rhys' (0: not given): one
+                                 mode given in the section instead of a table */
+    double mode_meV, huang_rhys; /* their values (meV; plain) */
     char modes_path[1024];    /* as written (relative to the config's directory) */
     char heavy_path[1024];
     char substitute[VG_MODES_LABEL_SIZE]; /* glob on the mode labels (fnmatch) */
     size_t substituted;       /* modes the substitute pattern matched */
-    vg_modes *light;          /* owned; NULL until loaded */
+    vg_modes *light;          /* owned; NULL until loaded (a one-mode table built from
+                                 'mode' and 'huang_rhys' when they are given) */
     vg_modes *heavy;          /* owned; NULL without 'heavy_modes' or 'substitute';
                                  with 'substitute': the light table with the
                                  [isotope] rule applied to the matched modes */

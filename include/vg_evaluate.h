@@ -48,14 +48,16 @@ double vg_reduced_mass(double m1, double m2);
  * ratio mu_heavy / mu_light (> 0): sqrt(mu_heavy / mu_light). */
 double vg_isotope_frequency_ratio(double reduced_mass_ratio);
 
-/* The valid metric of one point (the same for every command): VG_FILL
- * without [validity] criteria, else 1 where every enabled criterion holds
- * and 0 where one fails, the total rate (for the re-thermalisation
- * criterion) from r.  mode_meV and t1_ps are the single mode's (the mode
+/* The valid and failed_criteria metrics of one point (the same for every
+ * command): both VG_FILL without [validity] criteria, else *valid 1 where
+ * every enabled criterion holds and 0 where one fails, and *failed the sum
+ * of 2^VG_VALID_IDX_* over the failing ones; the total rate (for the
+ * re-thermalisation criterion) from r.  mode_meV and t1_ps are the single mode's (the mode
  * and mode_lifetime) or a table's (vg_valid_modes_inputs).  VG_ENUMERIC
  * from vg_valid_evaluate. */
 vg_status vg_evaluate_valid(const vg_config *cfg, double coupling_meV, double reorg_meV,
                             double temperature_K, double mode_meV, double t1_ps,
-                            const vg_rates *r, double *valid, vg_error *err);
+                            const vg_rates *r, double *valid, double *failed,
+                            vg_error *err);
 
 #endif

@@ -29,6 +29,8 @@ typedef enum {
                                    that of the other one */
     VG_M_LOG10_DISCRIMINATION,  /* [model] against only */
     VG_M_VALID,                 /* [validity] criteria only: 1 where all hold, else 0 */
+    VG_M_FAILED_CRITERIA,       /* [validity] criteria only: sum of 2^VG_VALID_IDX_* over
+                                   the criteria that fail (0 where all hold) */
     VG_N_METRICS
 } vg_metric_id;
 
@@ -91,10 +93,11 @@ void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
 
 /* The same with the rates of the odorant compared against (other may be
  * NULL: no discrimination) and the verdict of the validity criteria (valid
- * 1 or 0, or VG_FILL where none is evaluated).  The conditions of req see
- * every metric, these included. */
+ * 1 or 0 and failed the mask of the failing ones, or both VG_FILL where
+ * none is evaluated).  The conditions of req see every metric, these
+ * included. */
 void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
-                             const vg_rates *other, double valid,
+                             const vg_rates *other, double valid, double failed,
                              const vg_require_set *req, double out[VG_N_METRICS]);
 
 #endif

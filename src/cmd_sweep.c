@@ -363,6 +363,13 @@ static void finish_checkpoint(vg_ckpt *ck)
                 e.msg);
 }
 
+/* A summary of the validity criteria is written when they were evaluated
+ * and the data include sweep.nc (the summary is read back from it). */
+static int summary_validity(const vg_config *cfg)
+{
+    return cfg->metric_on[VG_M_FAILED_CRITERIA] && (cfg->formats & VG_FMT_NETCDF);
+}
+
 /* Rank 0 after the computation (status st): outputs, figures, or what to
  * do about a stop. */
 static vg_status conclude(const vg_cmd_args *a, const vg_config *cfg, const vg_grid *g,
@@ -374,10 +381,10 @@ static vg_status conclude(const vg_cmd_args *a, const vg_config *cfg, const vg_g
     if (st != VG_OK)
         return stopped(a, g, ck, st, err);
     finish_checkpoint(ck);
-    if (cfg->fig.formats || cfg->feasibility.n > 0) {
+    if (cfg->fig.formats || cfg->feasibility.n > 0 || summary_validity(cfg)) {
         char nc[4200];
         snprintf(nc, sizeof nc, "%s/sweep.nc", dir);
-        if (cfg->feasibility.n > 0)
+        if (cfg->feasibility.n > 0 || summary_validity(cfg))
             st = vg_cmd_summary(nc, dir, a->quiet, err);
         if (st == VG_OK && cfg->fig.formats)
             st = vg_cmd_figures(nc, dir, 0, NULL, a->quiet, 0, err);

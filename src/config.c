@@ -1993,13 +1993,40 @@ static vg_status odorant_header(loader *ld, span name)
 /* modes = PATH, heavy_modes = PATH or substitute = PATTERN in odorant od,
  * set at line (-1: --set).  The tables are read, and the pattern applied,
  * once the whole config is known. */
+/* 'mode' (an energy with its unit) or 'huang_rhys' (a plain number) of a
+ * one-mode odorant, in the ranges a mode table accepts. */
+static vg_status odorant_single(loader *ld, vg_odorant *od, int hr, span v)
+{
+    const param_spec *ps = &params[hr ? VG_P_HUANG_RHYS : VG_P_MODE];
+    double lo = hr ? 0.0 : VG_MODES_QUANTUM_MIN, hi = hr ? VG_MODES_S_MAX : VG_MODES_QUANTUM_MAX;
+    item it;
+    double x;
+    shown b;
+    vg_status st = parse_item(ps, v, &it, ld->err);
+
+    if (st == VG_OK)
+        st = resolve_units(ps, &it, 1, ld->err);
+    if (st != VG_OK)
+        return st;
+    x = item_value(&it);
+    if (!(x >= lo && x <= hi))
+        return vg_error_set(ld->err, VG_ECONFIG, "'%s' in [odorant.%s] must be between %g and "
+                            "%g%s (got '%s')", hr ? "huang_rhys" : "mode", od->name, lo, hi,
+                            hr ? "" : " meV", show(v, &b));
+    *(hr ? &od->huang_rhys : &od->mode_meV) = x;
+    return VG_OK;
+}
+
 static vg_status odorant_key(loader *ld, vg_odorant *od, span key, const char *value, int line)
 {
-    static const char *const names[] = {"modes", "heavy_modes", "substitute"};
+    static const char *const names[] = {"modes", "heavy_modes", "substitute", "mode",
+                                        "huang_rhys"};
     span v = span_trim(span_of(value));
     int k = span_is(key, "modes") ? 0 : span_is(key, "heavy_modes") ? 1
-            : span_is(key, "substitute") ? 2 : -1;
-    int *at[3] = {&od->modes_line, &od->heavy_line, &od->substitute_line};
+            : span_is(key, "substitute") ? 2 : span_is(key, "mode") ? 3
+            : span_is(key, "huang_rhys") ? 4 : -1;
+    int *at[5] = {&od->modes_line, &od->heavy_line, &od->substitute_line, &od->mode_line,
+                  &od->hr_line};
     char *text[3] = {od->modes_path, od->heavy_path, od->substitute};
     size_t size[3] = {sizeof od->modes_path, sizeof od->heavy_path, sizeof od->substitute};
     char h[256];
@@ -2007,10 +2034,16 @@ static vg_status odorant_key(loader *ld, vg_odorant *od, span key, const char *v
 
     if (k < 0)
         return vg_error_set(ld->err, VG_ECONFIG, "unknown key '%s' in [odorant.%s] (%s)",
-                            show(key, &b), od->name, hint(h, sizeof h, key, names, 3, "", ""));
+                            show(key, &b), od->name, hint(h, sizeof h, key, names, 5, "", ""));
     if (*at[k] > 0 && line > 0)
         return vg_error_set(ld->err, VG_ECONFIG, "duplicate key '%s' in [odorant.%s] (first set "
                             "at line %d)", names[k], od->name, *at[k]);
+    if (k >= 3) {
+        vg_status st = odorant_single(ld, od, k == 4, v);
+        if (st == VG_OK)
+            *at[k] = line;
+        return st;
+    }
     if (k == 2 && (v.n == 0 || v.n >= size[k]))
         return vg_error_set(ld->err, VG_ECONFIG, "'substitute' needs a pattern of 1 to %zu "
                             "bytes matching mode labels, such as 'C-H stretch*' (got '%s')",
@@ -2087,16 +2120,44 @@ static vg_status odorant_locate(loader *ld, const vg_odorant *od, const char *ke
     return st;
 }
 
-/* Every odorant needs 'modes'; the tables are read here. */
+/* The one-mode table of an odorant given by 'mode' and 'huang_rhys'
+ * (undamped, no label). */
+static vg_status odorant_one_mode(vg_odorant *od, vg_error *err)
+{
+    od->light = calloc(1, sizeof *od->light);
+    if (!od->light)
+        return vg_error_set(err, VG_ENOMEM, "out of memory for [odorant.%s]", od->name);
+    od->light->n = 1;
+    od->light->quantum_unit = VG_MODES_MEV;
+    od->light->mode[0].mode = od->mode_meV;
+    od->light->mode[0].huang_rhys = od->huang_rhys;
+    od->light->mode[0].lifetime_ps = HUGE_VAL;
+    od->light->line[0] = od->mode_line;
+    return VG_OK;
+}
+
+/* Every odorant needs 'modes' (or one mode); the tables are read here. */
 static vg_status check_odorants(loader *ld)
 {
     vg_status st = VG_OK;
 
     for (size_t i = 0; st == VG_OK && i < ld->cfg->nodorants; i++) {
         vg_odorant *od = &ld->cfg->odorants[i];
-        if (od->modes_line == 0)
+        int single = od->mode_line != 0 || od->hr_line != 0;
+        if (single && od->modes_line != 0)
+            return vg_error_set(ld->err, VG_ECONFIG, "%s:%d: [odorant.%s] gives 'modes' and "
+                                "'%s': a mode table, or one mode with 'mode' and 'huang_rhys', "
+                                "not both", ld->path, od->line, od->name,
+                                od->mode_line ? "mode" : "huang_rhys");
+        if (single && (od->mode_line == 0 || od->hr_line == 0))
+            return vg_error_set(ld->err, VG_ECONFIG, "%s:%d: [odorant.%s] gives '%s' without "
+                                "'%s' (one mode needs both)", ld->path, od->line, od->name,
+                                od->mode_line ? "mode" : "huang_rhys",
+                                od->mode_line ? "huang_rhys" : "mode");
+        if (od->modes_line == 0 && !single)
             return vg_error_set(ld->err, VG_ECONFIG, "%s:%d: [odorant.%s] needs 'modes' (the "
-                                "path of its mode table)", ld->path, od->line, od->name);
+                                "path of its mode table), or one mode with 'mode' and "
+                                "'huang_rhys'", ld->path, od->line, od->name);
         if (od->heavy_line != 0 && od->substitute_line != 0)
             return odorant_locate(ld, od, "substitute", od->substitute_line,
                                   vg_error_set(ld->err, VG_ECONFIG, "give 'heavy_modes' or "
@@ -2104,6 +2165,12 @@ static vg_status check_odorants(loader *ld)
                                                od->name));
         if (ld->no_tables)
             continue;
+        if (single) {
+            st = odorant_one_mode(od, ld->err);
+            if (st == VG_OK && od->heavy_line != 0)
+                st = odorant_table(ld, od, 1, &od->heavy);
+            continue;
+        }
         st = odorant_table(ld, od, 0, &od->light);
         if (st == VG_OK && od->heavy_line != 0)
             st = odorant_table(ld, od, 1, &od->heavy);

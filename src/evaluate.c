@@ -51,7 +51,7 @@ size_t vg_isotope_heavy_modes(const vg_isotope *iso, const char *pattern, const 
 vg_status vg_evaluate(const vg_config *cfg, const double v[VG_NPARAM], vg_eval_result *res,
                       vg_error *err)
 {
-    double valid = VG_FILL;
+    double valid = VG_FILL, failed = VG_FILL;
     vg_status st = vg_rate_mode_init(&res->light_mode, cfg->stats, v[VG_P_HUANG_RHYS],
                                      v[VG_P_MODE], v[VG_P_TEMPERATURE], err);
 
@@ -71,22 +71,24 @@ vg_status vg_evaluate(const vg_config *cfg, const double v[VG_NPARAM], vg_eval_r
     }
     if (st == VG_OK)
         st = vg_evaluate_valid(cfg, v[VG_P_COUPLING], v[VG_P_REORG], v[VG_P_TEMPERATURE],
-                               v[VG_P_MODE], cfg->validity.t1_ps, &res->light, &valid, err);
+                               v[VG_P_MODE], cfg->validity.t1_ps, &res->light, &valid, &failed,
+                               err);
     if (st == VG_OK)
         vg_metrics_compute_full(&res->light, cfg->isotope.on ? &res->heavy : NULL, NULL, valid,
-                                &cfg->feasibility, res->metric);
+                                failed, &cfg->feasibility, res->metric);
     return st;
 }
 
 vg_status vg_evaluate_valid(const vg_config *cfg, double coupling_meV, double reorg_meV,
                             double temperature_K, double mode_meV, double t1_ps,
-                            const vg_rates *r, double *valid, vg_error *err)
+                            const vg_rates *r, double *valid, double *failed,
+                            vg_error *err)
 {
     vg_valid_point p;
     vg_valid_report rep;
     vg_status st;
 
-    *valid = VG_FILL;
+    *valid = *failed = VG_FILL;
     if (!cfg->validity.on || !cfg->validity.s.enabled)
         return VG_OK;
     p.coupling = coupling_meV;
@@ -97,7 +99,9 @@ vg_status vg_evaluate_valid(const vg_config *cfg, double coupling_meV, double re
     p.t1 = t1_ps;
     p.k_total = r->coupling_zero ? 0.0 : fmin(exp(r->ln_k_total), DBL_MAX);
     st = vg_valid_evaluate(&cfg->validity.s, &p, &rep, err);
-    if (st == VG_OK)
+    if (st == VG_OK) {
         *valid = rep.failed == 0 ? 1.0 : 0.0;
+        *failed = (double)rep.failed;
+    }
     return st;
 }

@@ -96,7 +96,8 @@ static const char *metric_markup(vg_metric_id m)
         "feasible (1) or not (0)",
         "<i>k</i><sub>odorant</sub> / <i>k</i><sub>other</sub>",
         "log<sub>10</sub>(<i>k</i><sub>odorant</sub> / <i>k</i><sub>other</sub>)",
-        "model valid (1) or not (0)"};
+        "model valid (1) or not (0)",
+        "failed criteria (1 nonadiabatic, 2 solvent, 4 resolved, 8 rethermal)"};
     _Static_assert(sizeof s / sizeof *s == VG_N_METRICS, "one label per metric");
     return s[m];
 }

@@ -50,6 +50,9 @@ static const vg_metric_info metric_table[VG_N_METRICS] = {
     [VG_M_VALID] = {"valid", "1",
                     "1 where every enabled validity criterion of the model holds, else 0",
                     VG_NEEDS_VALIDITY},
+    [VG_M_FAILED_CRITERIA] = {"failed_criteria", "1",
+                              "validity criteria that fail: sum of 1 nonadiabatic, 2 solvent, "
+                              "4 resolved, 8 rethermal (0 where all hold)", VG_NEEDS_VALIDITY},
 };
 
 const vg_metric_info *vg_metric_get(vg_metric_id id)
@@ -148,7 +151,7 @@ static void other_metrics(const vg_rates *light, const vg_rates *other,
 }
 
 void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
-                             const vg_rates *other, double valid,
+                             const vg_rates *other, double valid, double failed,
                              const vg_require_set *req, double out[VG_N_METRICS])
 {
     light_metrics(light, out);
@@ -156,6 +159,7 @@ void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
     out[VG_M_LOG10_ISOTOPE_EFFECT] = out[VG_M_FEASIBLE] = VG_FILL;
     out[VG_M_DISCRIMINATION] = out[VG_M_LOG10_DISCRIMINATION] = VG_FILL;
     out[VG_M_VALID] = valid;
+    out[VG_M_FAILED_CRITERIA] = failed;
     if (heavy)
         heavy_metrics(light, heavy, out);
     if (other)
@@ -167,5 +171,5 @@ void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
 void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
                         const vg_require_set *req, double out[VG_N_METRICS])
 {
-    vg_metrics_compute_full(light, heavy, NULL, VG_FILL, req, out);
+    vg_metrics_compute_full(light, heavy, NULL, VG_FILL, VG_FILL, req, out);
 }

@@ -1,9 +1,12 @@
 /*
  * summary.json and summary.txt next to the data of a sweep with
- * [feasibility]: the conditions, the feasible fraction of the grid, the
- * feasible interval along each axis and the most robust feasible point
- * (vg_window).  Read back from the committed sweep.nc, so the summary comes
- * from the same numbers as the data and the maps, resumed run or not.
+ * [feasibility] or [validity] criteria: the conditions, the feasible
+ * fraction of the grid, the feasible interval along each axis and the most
+ * robust feasible point (vg_window); where the model's validity criteria
+ * were evaluated, how much of the grid (and of the window) they accept and
+ * how often each one fails.  Read back from the committed sweep.nc, so the
+ * summary comes from the same numbers as the data and the maps, resumed run
+ * or not.
  */
 #include <stdarg.h>
 #include <stdio.h>
@@ -13,7 +16,16 @@
 #include "cmd.h"
 #include "fsutil.h"
 #include "vg_dataset.h"
+#include "vg_validity.h"
 #include "vg_window.h"
+
+/* What the valid and failed_criteria metrics say over the grid. */
+typedef struct {
+    unsigned enabled;                /* criteria evaluated (VG_VALID_* mask) */
+    size_t valid;                    /* points where every one holds */
+    size_t fails[VG_VALID_NCRIT];    /* points where criterion i fails */
+    size_t feasible_valid;           /* feasible points that are valid */
+} valid_counts;
 
 typedef struct {
     char *s;
@@ -67,11 +79,45 @@ static void put_json_string(text *t, const char *s)
     put(t, "\"");
 }
 
-static void json_summary(text *t, const vg_dataset *ds, const vg_window *w)
+static void json_validity(text *t, const vg_dataset *ds, const vg_window *w,
+                          const valid_counts *vc)
+{
+    size_t n = ds->grid.npoints;
+    int first = 1;
+
+    put(t, "  \"validity\": {\"criteria\": [");
+    for (int i = 0; i < VG_VALID_NCRIT; i++)
+        if (vc->enabled & (1u << i)) {
+            put(t, "%s\"%s\"", first ? "" : ", ", vg_valid_name(i));
+            first = 0;
+        }
+    put(t, "], \"valid_points\": %zu, \"fraction_valid\": %.17g, \"fails\": {", vc->valid,
+        (double)vc->valid / (double)n);
+    first = 1;
+    for (int i = 0; i < VG_VALID_NCRIT; i++)
+        if (vc->enabled & (1u << i)) {
+            put(t, "%s\"%s\": %zu", first ? "" : ", ", vg_valid_name(i), vc->fails[i]);
+            first = 0;
+        }
+    put(t, "}");
+    if (w)
+        put(t, ", \"feasible_and_valid\": %zu", vc->feasible_valid);
+    put(t, "},\n");
+}
+
+static void json_summary(text *t, const vg_dataset *ds, const vg_window *w,
+                         const valid_counts *vc)
 {
     const vg_config *cfg = &ds->cfg;
     const vg_grid *g = &ds->grid;
 
+    if (!w) { /* [validity] alone */
+        put(t, "{\n  \"points\": %zu,\n", g->npoints);
+        json_validity(t, ds, NULL, vc);
+        put(t, "  \"note\": \"model prediction (golden rule, harmonic mode, classical "
+               "environment)\"\n}\n");
+        return;
+    }
     put(t, "{\n  \"conditions\": [");
     for (size_t i = 0; i < cfg->feasibility.n; i++) {
         put(t, "%s", i ? ", " : "");
@@ -100,6 +146,8 @@ static void json_summary(text *t, const vg_dataset *ds, const vg_window *w)
         put(t, "null,\n  \"robust_point_note\": \"%s\",\n",
             w->feasible ? "grid too large for the distance transform" : "no feasible point");
     }
+    if (vc)
+        json_validity(t, ds, w, vc);
     put(t, "  \"note\": \"model prediction (golden rule, harmonic mode, classical "
            "environment); distances with each axis scaled to its range, log axes in log "
            "units, the grid's outside counting as edge\"\n}\n");
@@ -114,12 +162,39 @@ static const char *unit_suffix(vg_param_id p, char *buf, size_t len)
     return buf;
 }
 
-static void text_summary(text *t, const vg_dataset *ds, const vg_window *w)
+static void text_validity(text *t, const vg_dataset *ds, const vg_window *w,
+                          const valid_counts *vc)
+{
+    size_t n = ds->grid.npoints;
+
+    put(t, "\nvalidity of the model (docs/theory.md section 6; a criterion fails where its "
+           "value reaches its threshold):\n");
+    put(t, "  valid (every criterion holds): %zu of %zu grid points (%.4g %%)\n", vc->valid, n,
+        100.0 * (double)vc->valid / (double)n);
+    for (int i = 0; i < VG_VALID_NCRIT; i++)
+        if (vc->enabled & (1u << i))
+            put(t, "  %-13s fails at %zu points (%.4g %%)\n", vg_valid_name(i), vc->fails[i],
+                100.0 * (double)vc->fails[i] / (double)n);
+    if (w)
+        put(t, "  feasible and valid: %zu of the %zu feasible points\n", vc->feasible_valid,
+            w->feasible);
+}
+
+static void text_summary(text *t, const vg_dataset *ds, const vg_window *w,
+                         const valid_counts *vc)
 {
     const vg_config *cfg = &ds->cfg;
     const vg_grid *g = &ds->grid;
     char u[16];
 
+    if (!w) { /* [validity] alone */
+        put(t, "validity of the model over the sweep in %s\n", ds->path);
+        if (cfg->title[0])
+            put(t, "%s\n", cfg->title);
+        text_validity(t, ds, NULL, vc);
+        put(t, "\nmodel prediction (golden rule, harmonic mode, classical environment)\n");
+        return;
+    }
     put(t, "feasibility window of the sweep in %s\n", ds->path);
     if (cfg->title[0])
         put(t, "%s\n", cfg->title);
@@ -151,6 +226,8 @@ static void text_summary(text *t, const vg_dataset *ds, const vg_window *w)
             w->feasible ? "not computed (grid larger than the distance transform's limit)"
                         : "none (no feasible point)");
     }
+    if (vc)
+        text_validity(t, ds, w, vc);
     put(t, "\nmodel prediction (golden rule, harmonic mode, classical environment)\n");
 }
 
@@ -168,30 +245,62 @@ static vg_status write_one(const char *dir, const char *name, text *t, int quiet
     return st;
 }
 
+/* The counts of valid_counts from the failed_criteria metric (and the
+ * feasibility mask, NULL without [feasibility]). */
+static vg_status count_validity(vg_dataset *ds, const unsigned char *mask, valid_counts *vc,
+                                vg_error *err)
+{
+    double *f = malloc(ds->grid.npoints * sizeof *f);
+    vg_status st;
+
+    memset(vc, 0, sizeof *vc);
+    vc->enabled = ds->cfg.validity.s.enabled;
+    if (!f)
+        return vg_error_set(err, VG_ENOMEM, "out of memory for the validity summary");
+    st = vg_dataset_read(ds, VG_M_FAILED_CRITERIA, f, err);
+    for (size_t i = 0; st == VG_OK && i < ds->grid.npoints; i++) {
+        unsigned bits = f[i] >= 0.0 && f[i] < 16.0 ? (unsigned)f[i] : 0u;
+        vc->valid += bits == 0;
+        vc->feasible_valid += bits == 0 && mask && mask[i];
+        for (int c = 0; c < VG_VALID_NCRIT; c++)
+            vc->fails[c] += (bits >> c) & 1u;
+    }
+    free(f);
+    return st;
+}
+
 vg_status vg_cmd_summary(const char *nc_path, const char *dir, int quiet, vg_error *err)
 {
     vg_dataset ds;
     vg_window w;
+    valid_counts vc;
     double *feas = NULL;
     unsigned char *mask = NULL;
     text tj = {0}, tt = {0};
+    int have_feas, have_valid;
     vg_status st = vg_dataset_open(&ds, nc_path, 0, NULL, err);
 
     if (st != VG_OK)
         return st;
-    feas = malloc(ds.grid.npoints * sizeof *feas);
-    mask = malloc(ds.grid.npoints);
-    if (!feas || !mask)
-        st = vg_error_set(err, VG_ENOMEM, "out of memory for the feasibility summary");
-    if (st == VG_OK)
-        st = vg_dataset_read(&ds, VG_M_FEASIBLE, feas, err);
-    for (size_t i = 0; st == VG_OK && i < ds.grid.npoints; i++)
-        mask[i] = feas[i] == 1.0;
-    if (st == VG_OK)
-        st = vg_window_analyse(&ds.grid, mask, &w, err);
+    have_feas = ds.cfg.feasibility.n > 0;
+    have_valid = ds.cfg.metric_on[VG_M_FAILED_CRITERIA];
+    if (have_feas) {
+        feas = malloc(ds.grid.npoints * sizeof *feas);
+        mask = malloc(ds.grid.npoints);
+        if (!feas || !mask)
+            st = vg_error_set(err, VG_ENOMEM, "out of memory for the feasibility summary");
+        if (st == VG_OK)
+            st = vg_dataset_read(&ds, VG_M_FEASIBLE, feas, err);
+        for (size_t i = 0; st == VG_OK && i < ds.grid.npoints; i++)
+            mask[i] = feas[i] == 1.0;
+        if (st == VG_OK)
+            st = vg_window_analyse(&ds.grid, mask, &w, err);
+    }
+    if (st == VG_OK && have_valid)
+        st = count_validity(&ds, mask, &vc, err);
     if (st == VG_OK) {
-        json_summary(&tj, &ds, &w);
-        text_summary(&tt, &ds, &w);
+        json_summary(&tj, &ds, have_feas ? &w : NULL, have_valid ? &vc : NULL);
+        text_summary(&tt, &ds, have_feas ? &w : NULL, have_valid ? &vc : NULL);
         st = write_one(dir, "summary.json", &tj, quiet, err);
     }
     if (st == VG_OK)

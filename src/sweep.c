@@ -190,14 +190,15 @@ static void fail(worker *w, vg_status st, size_t flat, double *out)
         out[m] = VG_FILL;
 }
 
-/* The valid metric at the point idx (vg_evaluate_valid). */
+/* The valid and failed_criteria metrics at the point idx
+ * (vg_evaluate_valid): v[0], v[1]. */
 static vg_status point_valid(const vg_config *cfg, const size_t idx[VG_NPARAM], double mode,
-                             double t1, const vg_rates *r, double *valid, vg_error *err)
+                             double t1, const vg_rates *r, double v[2], vg_error *err)
 {
     return vg_evaluate_valid(cfg, cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]],
                              cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
                              cfg->param[VG_P_TEMPERATURE].v[idx[VG_P_TEMPERATURE]], mode, t1, r,
-                             valid, err);
+                             &v[0], &v[1], err);
 }
 
 /* A segment of points that differ only in gap (consecutive along the gap
@@ -229,21 +230,21 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
     w->row_key = st == VG_OK ? row_key : SIZE_MAX;
     for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
         vg_rates rates[2];
-        double valid = VG_FILL;
+        double valid[2] = {VG_FILL, VG_FILL};
         for (int k = 0; k < niso && st == VG_OK; k++)
             st = vg_rate_eval_row(&w->t[k].mode, &w->t[k].row, gap[j], cfg->tolerance,
                                   &rates[k], &w->err);
         if (st == VG_OK)
             st = point_valid(cfg, idx, cfg->param[VG_P_MODE].v[idx[VG_P_MODE]],
-                             cfg->validity.t1_ps, &rates[0], &valid, &w->err);
+                             cfg->validity.t1_ps, &rates[0], valid, &w->err);
         if (st != VG_OK) { /* the sweep stops at this chunk: fill the rest */
             for (; j < n; j++, out += VG_N_METRICS)
                 fail(w, st, flat + j, out);
             w->row_key = SIZE_MAX;
             return;
         }
-        vg_metrics_compute_full(&rates[0], niso > 1 ? &rates[1] : NULL, NULL, valid,
-                                &cfg->feasibility, out);
+        vg_metrics_compute_full(&rates[0], niso > 1 ? &rates[1] : NULL, NULL, valid[0],
+                                valid[1], &cfg->feasibility, out);
     }
 }
 
@@ -364,9 +365,9 @@ static void odor_segment(worker *w, const vg_grid *g, const size_t idx[VG_NPARAM
     }
     vg_valid_modes_inputs(od->light->mode, od->light->n, cfg->validity.t1_ps, &mode, &t1);
     for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
-        double valid = VG_FILL;
+        double valid[2] = {VG_FILL, VG_FILL};
         if (st == VG_OK)
-            st = point_valid(cfg, idx, mode, t1, &w->o.rates[0][j0 + j], &valid, &w->err);
+            st = point_valid(cfg, idx, mode, t1, &w->o.rates[0][j0 + j], valid, &w->err);
         if (st != VG_OK) {
             fail(w, st, flat + j, out);
             w->o.key = SIZE_MAX;
@@ -374,8 +375,8 @@ static void odor_segment(worker *w, const vg_grid *g, const size_t idx[VG_NPARAM
         }
         vg_metrics_compute_full(&w->o.rates[0][j0 + j],
                                 cfg->isotope.on ? &w->o.rates[1][j0 + j] : NULL,
-                                vg_config_against(cfg) ? &w->o.rates[2][j0 + j] : NULL, valid,
-                                &cfg->feasibility, out);
+                                vg_config_against(cfg) ? &w->o.rates[2][j0 + j] : NULL,
+                                valid[0], valid[1], &cfg->feasibility, out);
     }
 }
 

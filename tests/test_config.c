@@ -740,7 +740,7 @@ static void test_file_errors(void **state)
         {"[output]\nmetrics = speed\n", "@FILE@:2: unknown metric 'speed' in 'metrics' "
          "(allowed: log10_k_elastic, log10_k_assisted, log10_k_total, log10_k_bare, "
          "log10_ratio, assisted_fraction, log10_contrast, log10_k_total_heavy, "
-         "isotope_effect, log10_isotope_effect, feasible, discrimination, log10_discrimination, valid)"},
+         "isotope_effect, log10_isotope_effect, feasible, discrimination, log10_discrimination, valid, failed_criteria)"},
         {"[output]\nmax_size = 500\n", "@FILE@:2: 'max_size' needs a unit: bytes, B, kB, MB, "
                                        "GB, TB, KiB, MiB, GiB or TiB (got '500')"},
         {"[output]\nmax_size = 5 PB\n", "@FILE@:2: unknown unit 'PB' for 'max_size' "
@@ -1181,14 +1181,14 @@ static void test_figure_errors(void **state)
         {"maps = rate\n", "9: unknown metric 'rate' in 'maps' (allowed: log10_k_elastic, "
                           "log10_k_assisted, log10_k_total, log10_k_bare, log10_ratio, "
                           "assisted_fraction, log10_contrast, log10_k_total_heavy, "
-                          "isotope_effect, log10_isotope_effect, feasible, discrimination, log10_discrimination, valid)"},
+                          "isotope_effect, log10_isotope_effect, feasible, discrimination, log10_discrimination, valid, failed_criteria)"},
         {"maps = log10_ratio, log10_k_total, log10_ratio\n", "9: metric 'log10_ratio' appears "
                                                              "twice in 'maps'"},
         {"maps = log10_ratio,\n", "9: empty item in the list of 'maps' (allowed: "
                                   "log10_k_elastic, log10_k_assisted, log10_k_total, "
                                   "log10_k_bare, log10_ratio, assisted_fraction, "
                                   "log10_contrast, log10_k_total_heavy, isotope_effect, "
-                                  "log10_isotope_effect, feasible, discrimination, log10_discrimination, valid)"},
+                                  "log10_isotope_effect, feasible, discrimination, log10_discrimination, valid, failed_criteria)"},
         {"x = temp\n", "9: unknown parameter 'temp' in 'x' (did you mean 'temperature'?)"},
         {"x = voltage\n", "9: unknown parameter 'voltage' in 'x' (allowed: gap, "
                           "reorganization, electronic_coupling, huang_rhys, mode, "

@@ -159,7 +159,8 @@ static void conditions_are_normalised_to_logs(void **state)
      * but the two-odorant and validity metrics */
     for (int m = 0; m < VG_N_METRICS; m++)
         assert_int_equal(cfg.metric_on[m], m != VG_M_DISCRIMINATION
-                                           && m != VG_M_LOG10_DISCRIMINATION && m != VG_M_VALID);
+                                           && m != VG_M_LOG10_DISCRIMINATION && m != VG_M_VALID
+                                           && m != VG_M_FAILED_CRITERIA);
     vg_config_free(&cfg);
 }
 

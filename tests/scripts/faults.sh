@@ -85,7 +85,7 @@ EOF
 }
 
 # The second run's values (different from the earlier run's); BIG also
-# makes the checkpoint (8 bytes per metric a point, 112 bytes) larger than
+# makes the checkpoint (8 bytes per metric a point, 120 bytes) larger than
 # the space left.
 OTHER='parameters.gap=0 .. 500 meV, 11 points'
 BIG='parameters.gap=0 .. 600 meV, 300 points' # 2100 points
@@ -234,17 +234,17 @@ then_resume() {
     resumed "$1" "$d" "$T/ref-big/sweep.csv" --set "$BIG" --chunk 256
 }
 
-# Full disk while computing: 16 pages free, the checkpoint of BIG needs 58
-# (2100 points of VG_N_METRICS = 14 doubles).
+# Full disk while computing: 16 pages free, the checkpoint of BIG needs 62
+# (2100 points of VG_N_METRICS = 15 doubles).
 ns_full_compute() {
     full_big full1 16 "full disk while computing" && then_resume "full disk while computing"
 }
 
-# Full disk while the data files are written: 64 pages free hold the
-# checkpoint (58 and its record) but not sweep.csv of BIG (about 100).
+# Full disk while the data files are written: 72 pages free hold the
+# checkpoint (62 and its record) but not sweep.csv of BIG (about 100).
 ns_full_write() {
     name="full disk while writing the data files"
-    full_big full2 64 "$name" || return
+    full_big full2 72 "$name" || return
     if [ "$(sed -n '5s/^done //p' "$d/.vibrogate-run/state" 2>/dev/null)" = 2100 ]; then
         pass "$name: the fault came after the grid was computed"
     else
