@@ -189,6 +189,65 @@ def body(tmp):
 
     probes(a, png)
     spectrum(tmp)
+    hatching(tmp)
+
+
+def hatching(tmp):
+    """Cells where a [validity] criterion fails are hatched; the others keep
+    their colour.  The probe config twice, without and with the solvent
+    criterion (kappa_A = 4 pi V^2 tau_L / (hbar lambda), Zusman 1980, fails
+    below lambda = 57 meV at V = 1 meV, tau_L = 0.3 ps): valid cells must be
+    the same pixels in both maps, invalid ones must differ and hold dark
+    hatch pixels."""
+    import netCDF4
+    plain = ["--set", "output.figures=png", "--set", "output.maps=log10_ratio",
+             "--set", "output.contours=none"]
+    crit = ["--set", "validity.criteria=solvent", "--set", "validity.relaxation_time=0.3 ps"]
+    d0, d1 = os.path.join(tmp, "h0"), os.path.join(tmp, "h1")
+    r0 = run([VG, "sweep", CFG, "--out", d0, "--quiet"] + plain, {"SOURCE_DATE_EPOCH": EPOCH})
+    r1 = run([VG, "sweep", CFG, "--out", d1, "--quiet"] + plain + crit, {"SOURCE_DATE_EPOCH": EPOCH})
+    check(r0.returncode == 0 and r1.returncode == 0, "sweeps without and with [validity] succeed",
+          r0.stderr + r1.stderr)
+    if r0.returncode or r1.returncode:
+        return
+    img0 = png_pixels(png_chunks(os.path.join(d0, "map-log10_ratio.png")))
+    img1 = png_pixels(png_chunks(os.path.join(d1, "map-log10_ratio.png")))
+    geom, _ = probe_geometry(os.path.join(d1, "sweep.nc"), "log10_ratio")
+    with netCDF4.Dataset(os.path.join(d1, "sweep.nc")) as ds:
+        gap = np.array(ds["gap"][:])
+        lam = np.array(ds["reorganization"][:])
+        valid = np.array(ds["valid"][:])
+        ratio = np.array(ds["log10_ratio"][:])
+    check(img0.shape == img1.shape and 0 < valid.sum() < valid.size,
+          "same image size; some cells valid and some not (%d of %d valid)"
+          % (int(valid.sum()), valid.size))
+    k = 100 / 72.0
+    same, differ, wrong = 0, 0, []
+    for c in range(valid.shape[0]):
+        for j in range(2, len(lam) - 2, 3):
+            for i in range(2, len(gap) - 2, 5):
+                nb = valid[c, j - 1:j + 2, i - 1:i + 2]
+                near_line = np.ptp(np.sign(ratio[c, j - 2:j + 3, i - 2:i + 3])) != 0
+                if np.ptp(nb) != 0 or near_line:
+                    continue
+                x0 = geom["x0"] + c * (geom["w"] + geom["gapx"])
+                dx = (gap[i] / geom["xscale"] - geom["xlo"]) / (geom["xhi"] - geom["xlo"])
+                dy = (np.log10(lam[j] / geom["yscale"]) - geom["ylo"]) / (geom["yhi"] - geom["ylo"])
+                px, py = int((x0 + geom["w"] * dx) * k), int((geom["y0"] + geom["h"] * (1 - dy)) * k)
+                b0 = img0[py - 3:py + 4, px - 3:px + 4]
+                b1 = img1[py - 3:py + 4, px - 3:px + 4]
+                if valid[c, j, i] == 1:
+                    same += 1
+                    if not np.array_equal(b0, b1):
+                        wrong.append(("valid cell changed", c, i, j))
+                else:
+                    differ += 1
+                    changed = int(np.sum(np.any(b0 != b1, axis=2)))
+                    if changed < 3 or b1.sum(axis=2).min() >= 3 * 90:
+                        wrong.append(("invalid cell not hatched", c, i, j, changed))
+    check(same >= 20 and differ >= 20 and not wrong,
+          "hatching: %d valid cells unchanged, %d invalid cells hatched" % (same, differ),
+          wrong[:3])
 
 
 def spectrum(tmp):

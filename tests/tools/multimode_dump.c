@@ -12,6 +12,8 @@
  *   fft REORG T GAP_LO GAP_STEP N           time-domain engine on the grid;
  *       N lines "gap ln_f err trusted"
  *   voigt X SIGMA GAMMA                     ln of the Voigt profile
+ *   budget TERMS                            cap the terms of a sum call
+ *                                          (default 4e9; no output)
  * Numbers are printed with %.17g; -inf as "-inf".  A rejected request
  * prints one line "error: MESSAGE".
  */
@@ -144,6 +146,16 @@ static int do_line(dump_state *d, char *line)
         return do_sum(d, line + 4);
     if (strncmp(line, "fft ", 4) == 0)
         return do_fft(d, line + 4);
+    if (sscanf(line, "budget %lf", &v[0]) == 1) { /* a new workspace with that term cap */
+        vg_error err = {VG_OK, ""};
+        vg_multimode_free(d->w);
+        d->w = NULL;
+        if (vg_multimode_alloc(MAX_MODES, WORK_POINTS, v[0], &d->w, &err) != VG_OK) {
+            fprintf(stderr, "multimode_dump: %s\n", err.msg);
+            return -1;
+        }
+        return 0;
+    }
     if (sscanf(line, "voigt %lf %lf %lf", &v[0], &v[1], &v[2]) == 3) {
         printf("%.17g\n", vg_multimode_ln_voigt(v[0], v[1], v[2]));
         return 0;
