@@ -111,6 +111,18 @@ compare_run "4 ranks, chunk 20000 (rank 3 idle)" "$MPIRUN -np 4" "--chunk 20000"
 compare_run "2 ranks, chunk 333" "$MPIRUN -np 2" "--chunk 333 --quiet"
 compare_run "MPI binary without mpirun (one rank)" "" "--chunk 1000"
 
+# A sweep that maps a many-mode odorant against another ([model] odorant,
+# against; the demo's twenty-mode tables) with the validity hatching: the
+# ranks cut the (T, V, lambda) rows at chunks of 256 points, and each row is
+# evaluated whole wherever it is cut, so the files must still be identical.
+CFG_SAVED=$CFG
+CFG="$T/odorant.ini"
+sed -e 's/^gap = .*/gap = 0 .. 600 meV, 61 points/' \
+    -e 's/^reorganization = .*/reorganization = 20 .. 300 meV, 21 points, log/' \
+    -e "s#odorants/#$(pwd)/configs/odorants/#" configs/discrimination.ini >"$CFG"
+compare_run "2 ranks, odorant against odorant, chunk 256" "$MPIRUN -np 2" "--chunk 256"
+CFG=$CFG_SAVED
+
 # sweep.nc of a distributed run, value by value, against a plain
 # one-process run with the default chunk and no --chunk at all.
 rm -rf "$T/plain" "$T/dist"
