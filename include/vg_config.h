@@ -216,15 +216,19 @@ vg_status vg_config_require_scalars(const vg_config *cfg, const char *command, i
 vg_status vg_config_refuse_odorants(const vg_config *cfg, const char *command, vg_error *err);
 
 /* For the commands that map a grid (sweep, check): without [model] odorant
- * the refusal of vg_config_refuse_odorants; with it, VG_ECONFIG for
- * 'engine = fft' (the maps need the elastic and assisted parts, which only
- * the sum engine gives); VG_OK otherwise. */
+ * the refusal of vg_config_refuse_odorants; VG_OK with it. */
 vg_status vg_config_check_mapped_odorant(const vg_config *cfg, const char *command,
                                          vg_error *err);
 
 /* What metric m needs that cfg lacks ("an [isotope] section", ...), or
- * NULL when cfg can compute it. */
+ * NULL when cfg can compute it.  With [model] odorant and engine = fft the
+ * metrics of the elastic and assisted parts are lacking too (the FFT gives
+ * the mapped odorant's total rate only). */
 const char *vg_config_metric_lacks(const vg_config *cfg, vg_metric_id m);
+
+/* The same for the single mode of [parameters] (what 'point' prints for
+ * it): the engine does not matter there. */
+const char *vg_config_metric_lacks_mode(const vg_config *cfg, vg_metric_id m);
 
 /* VG_ECONFIG (with the located message) if figures are asked for but the
  * grid cannot have maps (fewer than two axes).  The loader accepts such a

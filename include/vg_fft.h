@@ -79,6 +79,14 @@ vg_status vg_fft_plan_make(const vg_multimode_system *sys, double reorg_meV,
                            double gap_step_meV, size_t n_gaps, size_t max_n,
                            vg_fft_plan *plan, vg_error *err);
 
+/* Lengthen a plan's transform to n points (n >= plan->n and a product of
+ * 2, 3 and 5, such as the longest plan over a sweep's rows, so that one
+ * workspace serves them all): the same energy step and window start, a
+ * finer time step and farther aliased images, the bounds recomputed.
+ * VG_EUSAGE for another n. */
+vg_status vg_fft_plan_widen(const vg_multimode_system *sys, vg_fft_plan *plan, size_t n,
+                            vg_error *err);
+
 /* Workspace (GSL wave table, scratch, data) for transforms of length n.
  * VG_ENOMEM, or VG_EUSAGE for n = 0; *out NULL on failure. */
 vg_status vg_fft_alloc(size_t n, vg_fft_work **out, vg_error *err);

@@ -108,7 +108,7 @@ static void print_text(const vg_config *cfg, point_result *pr)
     printf("\nmetrics\n");
     for (int m = 0; m < VG_N_METRICS; m++) {
         const vg_metric_info *mi = vg_metric_get((vg_metric_id)m);
-        if (vg_config_metric_lacks(pr->cfg, (vg_metric_id)m))
+        if (vg_config_metric_lacks_mode(pr->cfg, (vg_metric_id)m))
             continue;
         if (pr->metric[m] == VG_FILL && m == VG_M_ISOTOPE_EFFECT)
             printf("  %-20s beyond 1e+-300 (see log10_isotope_effect)\n", mi->name);
@@ -613,7 +613,7 @@ static void print_json(const vg_config *cfg, point_result *pr, const odorant_res
         print_json_channel(pr, 0, first);
     printf("\n  ],\n  \"metrics\": {");
     for (int m = 0; m < VG_N_METRICS; m++) {
-        if (vg_config_metric_lacks(pr->cfg, (vg_metric_id)m))
+        if (vg_config_metric_lacks_mode(pr->cfg, (vg_metric_id)m))
             continue;
         printf("%s\"%s\": ", m ? ", " : "", vg_metric_get((vg_metric_id)m)->name);
         json_number(pr->metric[m]);

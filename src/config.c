@@ -2250,12 +2250,7 @@ vg_status vg_config_check_mapped_odorant(const vg_config *cfg, const char *comma
 {
     if (!vg_config_mapped(cfg))
         return vg_config_refuse_odorants(cfg, command, err);
-    if (cfg->engine == VG_ENGINE_FFT)
-        return vg_error_set(err, VG_ECONFIG, "%s: '%s' maps odorants with the sum engine only: "
-                            "'engine = fft' gives the total rate alone, and the maps need the "
-                            "elastic and assisted parts too (use engine = sum, the default; "
-                            "'point --compare' checks one point against the FFT)", cfg->path,
-                            command);
+    (void)command;
     return VG_OK;
 }
 
@@ -2810,7 +2805,24 @@ static vg_status check_isotope(loader *ld)
     return VG_OK;
 }
 
+/* The metrics the FFT engine cannot give a mapped odorant: they need its
+ * elastic and assisted parts, and the FFT gives the total only. */
+static int needs_parts(vg_metric_id m)
+{
+    return m == VG_M_LOG10_K_ELASTIC || m == VG_M_LOG10_K_ASSISTED || m == VG_M_LOG10_RATIO
+           || m == VG_M_ASSISTED_FRACTION;
+}
+
 const char *vg_config_metric_lacks(const vg_config *cfg, vg_metric_id m)
+{
+    const char *why = vg_config_metric_lacks_mode(cfg, m);
+
+    if (!why && needs_parts(m) && vg_config_mapped(cfg) && cfg->engine == VG_ENGINE_FFT)
+        return "'engine = sum' in [model] (the FFT engine gives an odorant's total rate only)";
+    return why;
+}
+
+const char *vg_config_metric_lacks_mode(const vg_config *cfg, vg_metric_id m)
 {
     int needs = vg_metric_get(m)->needs;
 
@@ -2842,6 +2854,10 @@ static vg_status check_metric_needs(loader *ld)
             return locate(ld, mk, vg_error_set(ld->err, VG_ECONFIG, "'metrics' lists '%s', "
                           "which needs %s", vg_metric_get((vg_metric_id)m)->name, why));
     }
+    /* the default map, log10_ratio, is not computable with every engine:
+     * then the total rate is mapped by default */
+    if (!ld->key_line[pk] && cfg->fig.nmaps == 1 && vg_config_metric_lacks(cfg, cfg->fig.maps[0]))
+        cfg->fig.maps[0] = VG_M_LOG10_K_TOTAL;
     for (size_t i = 0; i < cfg->fig.nmaps; i++)
         if ((why = vg_config_metric_lacks(cfg, cfg->fig.maps[i])) != NULL)
             return locate(ld, pk, vg_error_set(ld->err, VG_ECONFIG, "'maps' lists '%s', which "
@@ -2883,6 +2899,18 @@ static vg_status check_uncertainty(loader *ld)
 
 /* [validity]: given at all (header or any key) turns it on, with every
  * criterion unless 'criteria' says otherwise; a criterion needs its input. */
+/* 1 if the values of p are evenly spaced (or there is one), to 1e-9 of
+ * the step. */
+static int even_gaps(const vg_param *p)
+{
+    double step = p->n > 1 ? (p->v[p->n - 1] - p->v[0]) / (double)(p->n - 1) : 0.0;
+
+    for (size_t i = 1; i < p->n; i++)
+        if (!(fabs(p->v[i] - (p->v[0] + (double)i * step)) <= 1e-9 * fabs(step)))
+            return 0;
+    return 1;
+}
+
 /* [model] odorant and against name sections that exist; with odorant the
  * single mode's parameters are not used, so they may not be axes; with
  * [isotope], the mapped odorant needs its heavy form. */
@@ -2920,6 +2948,10 @@ static vg_status check_sweep_odorants(loader *ld)
                                "with 'odorant = %s' the modes come from its table: '%s' "
                                "must be a single value, not an axis", cfg->odorant_name,
                                p == VG_P_MODE ? "mode" : "huang_rhys"));
+    if (cfg->engine == VG_ENGINE_FFT && !even_gaps(&cfg->param[VG_P_GAP]))
+        return locate_line(ld, ok, cfg->odorant_line, vg_error_set(ld->err, VG_ECONFIG,
+                           "with 'engine = fft' the gap axis must be evenly spaced (a linear "
+                           "range): the FFT gives its values on an even energy grid"));
     if (cfg->isotope.on && !ld->no_tables && !cfg->odorants[cfg->odorant].heavy)
         return locate_line(ld, ok, cfg->odorant_line, vg_error_set(ld->err, VG_ECONFIG,
                            "[isotope] with 'odorant = %s' needs its heavy form: "

@@ -235,6 +235,23 @@ static vg_status plan_grid(vg_fft_plan *p, double e_lo, double e_hi, double de_m
     return VG_OK;
 }
 
+/* The truncation and aliasing bounds of a plan whose grid is set; the
+ * time window's half length pi / de does not depend on n, the time step
+ * 2 pi / (n de) and the aliased images' distance do. */
+static void plan_bounds(const vg_multimode_system *sys, vg_fft_plan *plan)
+{
+    double ds = 2.0 * VG_PI / ((double)plan->n * plan->de);
+    double T_half = VG_PI / plan->de;
+    double env = exp(-0.5 * plan->s2 * T_half * T_half);
+
+    plan->trunc = (sqrt(VG_PI / (2.0 * plan->s2)) * erfc(T_half * sqrt(0.5 * plan->s2))
+                   + ds * env) / VG_PI;
+    plan->alias = alias_side(sys, plan, plan->temperature,
+                             plan->e_ref + (double)(plan->k_lo + (long)plan->n) * plan->de, 1.0)
+                  + alias_side(sys, plan, plan->temperature,
+                               plan->e_ref + (double)(plan->k_lo - 1) * plan->de, -1.0);
+}
+
 vg_status vg_fft_plan_make(const vg_multimode_system *sys, double reorg_meV,
                            double temperature_K, double gap_lo_meV,
                            double gap_step_meV, size_t n_gaps, size_t max_n,
@@ -242,7 +259,7 @@ vg_status vg_fft_plan_make(const vg_multimode_system *sys, double reorg_meV,
 {
     vg_status st = plan_check(sys, reorg_meV, temperature_K, gap_lo_meV, gap_step_meV,
                               n_gaps, plan, err);
-    double var, sd, lt, e_lo, e_hi, smax, ds, T_half, env;
+    double var, sd, lt, e_lo, e_hi, smax;
 
     if (st != VG_OK)
         return st;
@@ -263,15 +280,19 @@ vg_status vg_fft_plan_make(const vg_multimode_system *sys, double reorg_meV,
                                              + 2.0 * VG_PI / (e_hi - e_lo)) / VG_PI)));
     if ((st = plan_grid(plan, e_lo, e_hi, VG_PI / smax, sd, max_n, err)) != VG_OK)
         return st;
-    ds = 2.0 * VG_PI / ((double)plan->n * plan->de);
-    T_half = VG_PI / plan->de;
-    env = exp(-0.5 * plan->s2 * T_half * T_half);
-    plan->trunc = (sqrt(VG_PI / (2.0 * plan->s2)) * erfc(T_half * sqrt(0.5 * plan->s2))
-                   + ds * env) / VG_PI;
-    plan->alias = alias_side(sys, plan, temperature_K,
-                             plan->e_ref + (double)(plan->k_lo + (long)plan->n) * plan->de, 1.0)
-                  + alias_side(sys, plan, temperature_K,
-                               plan->e_ref + (double)(plan->k_lo - 1) * plan->de, -1.0);
+    plan_bounds(sys, plan);
+    return VG_OK;
+}
+
+vg_status vg_fft_plan_widen(const vg_multimode_system *sys, vg_fft_plan *plan, size_t n,
+                            vg_error *err)
+{
+    if (!plan || n < plan->n || good_length(n) != n)
+        return vg_error_set(err, VG_EUSAGE, "FFT plan: cannot widen a transform of %zu points "
+                            "to %zu (a larger product of 2, 3 and 5 is needed)",
+                            plan ? plan->n : 0, n);
+    plan->n = n;
+    plan_bounds(sys, plan);
     return VG_OK;
 }
 

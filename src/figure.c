@@ -925,7 +925,9 @@ static vg_status figure_init(figure *f, const vg_dataset *ds, vg_error *err)
     st = axis_init(&f->ax, f->cfg, f->fs->x, err);
     if (st == VG_OK)
         st = axis_init(&f->ay, f->cfg, f->fs->y, err);
-    if (st == VG_OK)
+    /* the dominance boundary needs log10_ratio; without it (not stored, or
+     * not computable, as with the FFT engine) the maps have no boundary */
+    if (st == VG_OK && ds->cfg.metric_on[VG_M_LOG10_RATIO])
         st = read_metric(ds, VG_M_LOG10_RATIO, &ratio, err);
     f->ratio = ratio;
     if (st == VG_OK && ds->cfg.feasibility.n > 0) {

@@ -28,6 +28,7 @@
 #include "vg_const.h"
 #include "vg_evaluate.h"
 #include "vg_metrics.h"
+#include "vg_fft.h"
 #include "vg_multimode.h"
 #include "vg_sweep.h"
 
@@ -51,8 +52,15 @@ typedef struct {
  * ([isotope]) and the odorant compared against ([model] against). */
 #define ODOR_TRACKS 3
 
+/* Longest transform a sweep row may take with engine = fft (the point
+ * command's limit). */
+#define ODOR_FFT_MAX ((size_t)1 << 24)
+
 typedef struct {
     vg_multimode_work *mw;
+    vg_fft_work *fw;                   /* engine = fft: for the longest row's plan */
+    size_t fft_n;                      /* that length */
+    vg_fft_point *fp;                  /* engine = fft: one row of the gap axis */
     vg_multimode_rates *mm;            /* one row of the gap axis */
     vg_rates *rates[ODOR_TRACKS];      /* the same as kernel records */
     size_t key;                        /* (T, V, lambda) row held, or SIZE_MAX */
@@ -217,6 +225,11 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
     vg_status st = VG_OK;
     int niso = cfg->isotope.on ? 2 : 1;
 
+    if (w->status != VG_OK) { /* keep the first failure's message */
+        for (size_t j = 0; j < n; j++, out += VG_N_METRICS)
+            fail(w, w->status, flat + j, out);
+        return;
+    }
     if (w->key != key) {
         double v[VG_NPARAM];
         for (int p = 0; p < VG_NPARAM; p++)
@@ -312,6 +325,76 @@ static const char *track_name(const vg_config *cfg, int k)
     return od ? od->name : "";
 }
 
+/* The gap axis as the FFT takes it: ascending from *lo by *step; *rev set
+ * when the axis runs downward (the FFT's gap i is then the axis' n-1-i). */
+static void fft_axis(const vg_param *gp, double *lo, double *step, int *rev)
+{
+    double a = gp->v[0], b = gp->v[gp->n - 1];
+
+    *rev = gp->n > 1 && b < a;
+    *lo = *rev ? b : a;
+    *step = gp->n > 1 ? fabs(b - a) / (double)(gp->n - 1) : 0.0;
+}
+
+/* The plan of track sys at (reorg, T) over the gap axis. */
+static vg_status fft_plan(const vg_config *cfg, const vg_multimode_system *sys, double reorg,
+                          double T, vg_fft_plan *plan, vg_error *err)
+{
+    const vg_param *gp = &cfg->param[VG_P_GAP];
+    double lo, step;
+    int rev;
+
+    fft_axis(gp, &lo, &step, &rev);
+    return vg_fft_plan_make(sys, reorg, T, lo, step, gp->n, ODOR_FFT_MAX, plan, err);
+}
+
+/* engine = fft: the total rate of track k over the row from one transform
+ * (the plan lengthened to the thread's workspace).  Every gap must lie
+ * within the transform's dynamic range; a value below it would be noise,
+ * so the row fails instead, naming the gap.  Only the total-rate metrics
+ * are stored with this engine (vg_config_metric_lacks), so the elastic and
+ * assisted fields are set to the total only to keep the record well
+ * formed; they reach no output. */
+static vg_status fft_row(worker *w, const vg_config *cfg, const vg_multimode_system *sys, int k,
+                         double reorg, double V, double T)
+{
+    const vg_param *gp = &cfg->param[VG_P_GAP];
+    double lo, step, kT = VG_KB_MEV * T;
+    double lp = vg_rate_ln_marcus(reorg, reorg, V, T) + 0.5 * log(4.0 * VG_PI * reorg * kT);
+    int rev, any = 0;
+    vg_fft_plan plan;
+    vg_status st = fft_plan(cfg, sys, reorg, T, &plan, &w->err);
+
+    if (st == VG_OK)
+        st = vg_fft_plan_widen(sys, &plan, w->o.fft_n, &w->err);
+    if (st == VG_OK)
+        st = vg_fft_eval(w->o.fw, &plan, sys, w->o.fp, &w->err);
+    if (st != VG_OK)
+        return st;
+    fft_axis(gp, &lo, &step, &rev);
+    for (size_t i = 0; i < sys->n_modes; i++)
+        any |= sys->modes[i].huang_rhys > 0.0;
+    for (size_t j = 0; j < gp->n; j++) {
+        const vg_fft_point *f = &w->o.fp[rev ? gp->n - 1 - j : j];
+        vg_multimode_rates r;
+        if (!f->trusted)
+            return vg_error_set(&w->err, VG_ENUMERIC, "gap %g meV lies below the FFT's dynamic "
+                                "range at reorganization %g meV, temperature %g K (its rate is "
+                                "under 1e-12 of the row's largest, or its error above 1e-3): "
+                                "use engine = sum, exact everywhere, or a narrower gap range",
+                                gp->v[j], reorg, T);
+        memset(&r, 0, sizeof r);
+        r.ln_f_total = r.ln_f_elastic = r.ln_f_assisted = f->ln_f;
+        r.coupling_zero = V == 0.0;
+        r.assisted_zero = !any;
+        r.ln_k_total = r.ln_k_elastic = r.ln_k_assisted = r.coupling_zero ? -HUGE_VAL
+                                                                           : f->ln_f + lp;
+        odor_record(&r, gp->v[j], reorg, V, T, &w->o.rates[k][j]);
+        w->o.rates[k][j].assisted_fraction = 0.0;
+    }
+    return VG_OK;
+}
+
 /* Every track's rates over the whole gap axis of one row. */
 static vg_status odor_row(worker *w, const vg_config *cfg, double reorg, double V, double T)
 {
@@ -323,6 +406,15 @@ static vg_status odor_row(worker *w, const vg_config *cfg, double reorg, double 
     for (int k = 0; k < ODOR_TRACKS && st == VG_OK; k++) {
         if (!sys[k].modes)
             continue;
+        if (cfg->engine == VG_ENGINE_FFT) {
+            st = fft_row(w, cfg, &sys[k], k, reorg, V, T);
+            if (st != VG_OK) {
+                vg_error_prefix(&w->err, "[odorant.%s]: ", track_name(cfg, k));
+                if (k == 1)
+                    vg_error_prefix(&w->err, "heavy isotopologue of ");
+            }
+            continue;
+        }
         st = vg_multimode_eval(w->o.mw, &sys[k], reorg, T, V, cfg->tolerance, gp->n, gp->v,
                                w->o.mm, &w->err);
         if (st != VG_OK) {
@@ -357,6 +449,12 @@ static void odor_segment(worker *w, const vg_grid *g, const size_t idx[VG_NPARAM
     size_t j0 = idx[VG_P_GAP];
     double mode, t1;
 
+    if (w->status != VG_OK) { /* keep the first failure's message */
+        for (size_t j = 0; j < n; j++, out += VG_N_METRICS)
+            fail(w, w->status, flat + j, out);
+        return;
+    }
+
     if (w->o.key != row_key) {
         st = odor_row(w, cfg, cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
                       cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]],
@@ -389,8 +487,9 @@ static vg_status odor_alloc(worker *ws, int nthreads, const vg_grid *g, vg_error
     const vg_param *gp = &cfg->param[VG_P_GAP], *lp = &cfg->param[VG_P_REORG];
     const vg_param *tp = &cfg->param[VG_P_TEMPERATURE];
     vg_multimode_system sys[ODOR_TRACKS];
-    size_t points = 0, max_modes = 1;
+    size_t points = 0, max_modes = 1, fft_n = 0;
     double work = 0.0, glo, ghi;
+    int fft = cfg->engine == VG_ENGINE_FFT;
     vg_status st = VG_OK;
 
     odor_systems(cfg, sys);
@@ -403,10 +502,15 @@ static vg_status odor_alloc(worker *ws, int nthreads, const vg_grid *g, vg_error
             for (size_t b = 0; b < tp->n && st == VG_OK; b++) {
                 size_t pk = 0;
                 double wk = 0.0;
+                vg_fft_plan plan;
                 st = vg_multimode_check(&sys[k], lp->v[a], tp->v[b], err);
-                if (st == VG_OK)
+                if (st == VG_OK && fft) {
+                    st = fft_plan(cfg, &sys[k], lp->v[a], tp->v[b], &plan, err);
+                    fft_n = st == VG_OK && plan.n > fft_n ? plan.n : fft_n;
+                } else if (st == VG_OK) {
                     st = vg_multimode_need(&sys[k], lp->v[a], tp->v[b], glo, ghi, gp->n,
                                            cfg->tolerance, &pk, &wk, err);
+                }
                 points = pk > points ? pk : points;
                 work = wk > work ? wk : work;
             }
@@ -419,7 +523,15 @@ static vg_status odor_alloc(worker *ws, int nthreads, const vg_grid *g, vg_error
     for (int t = 0; t < nthreads && st == VG_OK; t++) {
         odor_rows *o = &ws[t].o;
         o->key = SIZE_MAX;
-        st = vg_multimode_alloc(max_modes, 2 * points + 64, 4.0 * work + 1e6, &o->mw, err);
+        o->fft_n = fft_n;
+        if (fft) {
+            st = vg_fft_alloc(fft_n, &o->fw, err);
+            o->fp = st == VG_OK ? malloc(gp->n * sizeof *o->fp) : NULL;
+            if (st == VG_OK && !o->fp)
+                st = vg_error_set(err, VG_ENOMEM, "out of memory for the FFT rows");
+        } else {
+            st = vg_multimode_alloc(max_modes, 2 * points + 64, 4.0 * work + 1e6, &o->mw, err);
+        }
         o->mm = st == VG_OK ? malloc(gp->n * sizeof *o->mm) : NULL;
         for (int k = 0; k < ODOR_TRACKS && st == VG_OK; k++)
             o->rates[k] = malloc(gp->n * sizeof *o->rates[k]);
@@ -432,6 +544,8 @@ static vg_status odor_alloc(worker *ws, int nthreads, const vg_grid *g, vg_error
 static void odor_free(odor_rows *o)
 {
     vg_multimode_free(o->mw);
+    vg_fft_free(o->fw);
+    free(o->fp);
     free(o->mm);
     for (int k = 0; k < ODOR_TRACKS; k++)
         free(o->rates[k]);

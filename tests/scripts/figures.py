@@ -190,6 +190,21 @@ def body(tmp):
     probes(a, png)
     spectrum(tmp)
     hatching(tmp)
+    without_ratio(tmp)
+
+
+def without_ratio(tmp):
+    """Maps of a sweep that does not store log10_ratio (the dominance
+    boundary's metric) are drawn without the boundary, not refused after
+    the data are written."""
+    d = os.path.join(tmp, "noratio")
+    r = run([VG, "sweep", CFG, "--out", d, "--quiet", "--set", "output.figures=png",
+             "--set", "output.metrics=log10_k_total", "--set", "output.maps=log10_k_total"],
+            {"SOURCE_DATE_EPOCH": EPOCH})
+    names = sorted(os.listdir(d)) if os.path.isdir(d) else []
+    check(r.returncode == 0 and names == ["map-log10_k_total.png", "sweep.nc"],
+          "a map without log10_ratio stored: exit 0, the map drawn", "%d %s %s"
+          % (r.returncode, r.stderr.strip(), names))
 
 
 def hatching(tmp):
