@@ -103,6 +103,22 @@ static void print_output(const vg_cmd_args *a, const vg_config *cfg)
     print_space(a->out_dir ? a->out_dir : cfg->out_dir, vg_grid_output_bytes(cfg));
 }
 
+/* With [model] odorant: which odorant replaces the single mode (whose
+ * huang_rhys and mode above are then unused), against which, by which
+ * engine. */
+static void print_odorants(const vg_config *cfg)
+{
+    const vg_odorant *od = vg_config_mapped(cfg), *other = vg_config_against(cfg);
+
+    if (!od)
+        return;
+    printf("odorant: %s (%zu modes) in place of the single mode (huang_rhys and mode unused)",
+           od->name, od->light ? od->light->n : 0);
+    if (other)
+        printf(", against %s (%zu modes)", other->name, other->light ? other->light->n : 0);
+    printf(", %s engine\n", cfg->engine == VG_ENGINE_FFT ? "FFT" : "sum");
+}
+
 vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err)
 {
     vg_config cfg;
@@ -127,6 +143,7 @@ vg_status vg_cmd_check(const vg_cmd_args *a, vg_error *err)
         print_param(&cfg, (vg_param_id)p);
     printf("model: mode_statistics = %s, tolerance = %g\n",
            cfg.stats == VG_STATS_FROZEN ? "frozen" : "thermal", cfg.tolerance);
+    print_odorants(&cfg);
     print_grid(&g);
     print_output(a, &cfg);
     vg_config_free(&cfg);
