@@ -198,6 +198,17 @@ static void fail(worker *w, vg_status st, size_t flat, double *out)
         out[m] = VG_FILL;
 }
 
+/* After a failure the thread fills the rest of its blocks without
+ * computing them, so that its message stays the first failure's. */
+static int already_failed(worker *w, size_t n, size_t flat, double *out)
+{
+    if (w->status == VG_OK)
+        return 0;
+    for (size_t j = 0; j < n; j++, out += VG_N_METRICS)
+        fail(w, w->status, flat + j, out);
+    return 1;
+}
+
 /* The valid and failed_criteria metrics at the point idx
  * (vg_evaluate_valid): v[0], v[1]. */
 static vg_status point_valid(const vg_config *cfg, const size_t idx[VG_NPARAM], double mode,
@@ -225,11 +236,8 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
     vg_status st = VG_OK;
     int niso = cfg->isotope.on ? 2 : 1;
 
-    if (w->status != VG_OK) { /* keep the first failure's message */
-        for (size_t j = 0; j < n; j++, out += VG_N_METRICS)
-            fail(w, w->status, flat + j, out);
+    if (already_failed(w, n, flat, out))
         return;
-    }
     if (w->key != key) {
         double v[VG_NPARAM];
         for (int p = 0; p < VG_NPARAM; p++)
@@ -396,6 +404,19 @@ static vg_status fft_row(worker *w, const vg_config *cfg, const vg_multimode_sys
 }
 
 /* Every track's rates over the whole gap axis of one row. */
+/* engine = sum: track k over the row by the lattice sum. */
+static vg_status sum_row(worker *w, const vg_config *cfg, const vg_multimode_system *sys, int k,
+                         double reorg, double V, double T)
+{
+    const vg_param *gp = &cfg->param[VG_P_GAP];
+    vg_status st = vg_multimode_eval(w->o.mw, sys, reorg, T, V, cfg->tolerance, gp->n, gp->v,
+                                     w->o.mm, &w->err);
+
+    for (size_t j = 0; st == VG_OK && j < gp->n; j++)
+        odor_record(&w->o.mm[j], gp->v[j], reorg, V, T, &w->o.rates[k][j]);
+    return st;
+}
+
 static vg_status odor_row(worker *w, const vg_config *cfg, double reorg, double V, double T)
 {
     const vg_param *gp = &cfg->param[VG_P_GAP];
@@ -406,32 +427,17 @@ static vg_status odor_row(worker *w, const vg_config *cfg, double reorg, double 
     for (int k = 0; k < ODOR_TRACKS && st == VG_OK; k++) {
         if (!sys[k].modes)
             continue;
-        if (cfg->engine == VG_ENGINE_FFT) {
-            st = fft_row(w, cfg, &sys[k], k, reorg, V, T);
-            if (st != VG_OK) {
-                vg_error_prefix(&w->err, "[odorant.%s]: ", track_name(cfg, k));
-                if (k == 1)
-                    vg_error_prefix(&w->err, "heavy isotopologue of ");
-            }
-            continue;
-        }
-        st = vg_multimode_eval(w->o.mw, &sys[k], reorg, T, V, cfg->tolerance, gp->n, gp->v,
-                               w->o.mm, &w->err);
+        st = cfg->engine == VG_ENGINE_FFT ? fft_row(w, cfg, &sys[k], k, reorg, V, T)
+                                          : sum_row(w, cfg, &sys[k], k, reorg, V, T);
+        for (size_t j = 0; st == VG_OK && j < gp->n; j++)
+            if (!odor_record_finite(&w->o.rates[k][j]))
+                st = vg_error_set(&w->err, VG_ENUMERIC, "the many-mode engine gave a non-finite "
+                                  "rate at gap %g meV, reorganization %g meV, coupling %g meV, "
+                                  "temperature %g K", gp->v[j], reorg, V, T);
         if (st != VG_OK) {
-            vg_error_prefix(&w->err, "[odorant.%s]: ",
-                            track_name(cfg, k));
+            vg_error_prefix(&w->err, "[odorant.%s]: ", track_name(cfg, k));
             if (k == 1)
                 vg_error_prefix(&w->err, "heavy isotopologue of ");
-            break;
-        }
-        for (size_t j = 0; j < gp->n && st == VG_OK; j++) {
-            vg_rates *o = &w->o.rates[k][j];
-            odor_record(&w->o.mm[j], gp->v[j], reorg, V, T, o);
-            if (!odor_record_finite(o))
-                st = vg_error_set(&w->err, VG_ENUMERIC, "[odorant.%s]: the many-mode engine "
-                                  "gave a non-finite rate at gap %g meV, reorganization %g meV, "
-                                  "coupling %g meV, temperature %g K", track_name(cfg, k),
-                                  gp->v[j], reorg, V, T);
         }
     }
     return st;
@@ -449,11 +455,8 @@ static void odor_segment(worker *w, const vg_grid *g, const size_t idx[VG_NPARAM
     size_t j0 = idx[VG_P_GAP];
     double mode, t1;
 
-    if (w->status != VG_OK) { /* keep the first failure's message */
-        for (size_t j = 0; j < n; j++, out += VG_N_METRICS)
-            fail(w, w->status, flat + j, out);
+    if (already_failed(w, n, flat, out))
         return;
-    }
 
     if (w->o.key != row_key) {
         st = odor_row(w, cfg, cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],

@@ -355,14 +355,24 @@ def fft_engine(tmp):
                 for k in ("log10_k_total", "log10_discrimination"))
     report(worst < 1e-6, "FFT sweep against sum sweep: log10_k_total and the discrimination "
            "within 1e-6 relative (worst %.1e)" % worst, "")
+    r = subprocess.run([BINARY, "check", os.path.join(tmp, "fft-fft", "c.ini")],
+                       capture_output=True, text=True)
+    want = ("odorant: velarone (20 modes) in place of the single mode (huang_rhys and mode "
+            "unused), against velarone-d (20 modes), FFT engine")
+    report(r.returncode == 0 and want in r.stdout.splitlines(),
+           "check names the mapped odorant, the one compared against and the engine",
+           r.stdout[-300:] + r.stderr)
     d = os.path.join(tmp, "fft-wide")
     os.makedirs(d)
     with open(os.path.join(d, "c.ini"), "w") as fh:
         fh.write(FFT % ("-1000 .. 2000 meV, 61 points", "fft", DEMO_TABLES, DEMO_TABLES))
     r = subprocess.run([BINARY, "sweep", os.path.join(d, "c.ini"), "--quiet",
                         "--out", os.path.join(d, "out")], capture_output=True, text=True)
+    # the first failing row in grid order (reorganization 60 meV) is the
+    # one named, whichever thread met a later one
     report(r.returncode == 1 and r.stderr.count("\n") == 1
            and "below the FFT's dynamic range" in r.stderr
+           and "gap -1000 meV" in r.stderr and "reorganization 60 meV" in r.stderr
            and not os.path.exists(os.path.join(d, "out", "sweep.nc")),
            "beyond its dynamic range the FFT sweep stops: status 1, one line, no sweep.nc",
            "%d %s" % (r.returncode, r.stderr.strip()))
