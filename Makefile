@@ -29,6 +29,9 @@ WARN      := -Wall -Wextra -Wshadow -Wconversion -Wstrict-prototypes
 ifeq ($(WERROR),1)
 WARN      += -Werror
 endif
+# No fused multiply-add contractions: the rate kernel's vector lanes and its
+# one-point path must round alike, whatever -march the user's CFLAGS name.
+FPFLAGS   := -ffp-contract=off
 ifeq ($(OPENMP),1)
 OMPFLAGS  := -fopenmp
 endif
@@ -41,6 +44,15 @@ B         := build-mpi
 else
 B         := build
 endif
+# The baseline build: the rate kernel's vector lanes compiled for baseline
+# x86-64 only (no AVX2 version chosen at run time), in a directory of its
+# own.  tests/scripts/lanes.sh compares its output with the normal build's
+# bit for bit; tests/scripts/valgrind.sh memchecks it (valgrind 3.19 does
+# not decode every AVX2 instruction GCC emits).
+ifeq ($(BASELINE)$(MPI),10)
+LANEFLAGS := -DVG_NO_CLONES
+B         := build-base
+endif
 # The sanitizer build (tests/hardening.mk): AddressSanitizer and UBSan,
 # halting on the first error, in a directory of its own.  MPI=1 ignores it.
 ifeq ($(SANITIZE)$(MPI),10)
@@ -52,7 +64,7 @@ endif
 # Library headers as system headers, so our warning flags judge only our code.
 PKG_CFLAGS = $(patsubst -I%,-isystem %,$(shell $(PKG_CONFIG) --cflags $(PKGS)))
 PKG_LIBS   = $(shell $(PKG_CONFIG) --libs $(PKGS))
-ALL_CFLAGS = -std=c17 $(WARN) $(OMPFLAGS) $(MPIFLAGS) $(SANFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
+ALL_CFLAGS = -std=c17 $(WARN) $(FPFLAGS) $(OMPFLAGS) $(MPIFLAGS) $(SANFLAGS) $(LANEFLAGS) -Iinclude -Isrc $(PKG_CFLAGS) \
              -DVG_VERSION='"$(VERSION)"' -DVG_INIH_VERSION='"$(shell $(PKG_CONFIG) --modversion inih)"' $(CPPFLAGS) $(CFLAGS)
 ALL_LIBS   = $(PKG_LIBS) -lm
 

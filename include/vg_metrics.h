@@ -100,4 +100,12 @@ void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
                              const vg_rates *other, double valid, double failed,
                              const vg_require_set *req, double out[VG_N_METRICS]);
 
+/* vg_metrics_compute_full for n points of one run (element i of each array
+ * of light, heavy, valid and failed belongs to point i; heavy, valid and
+ * failed may be NULL): out holds n * VG_N_METRICS values, point by point.
+ * The same bits as n calls with the points' records. */
+void vg_metrics_compute_run(size_t n, const vg_rates_run *light, const vg_rates_run *heavy,
+                            const double *valid, const double *failed,
+                            const vg_require_set *req, double *out);
+
 #endif

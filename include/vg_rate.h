@@ -68,12 +68,16 @@ typedef struct {
     long n_peak;            /* the largest channel */
 } vg_rates;
 
+/* Largest number of channels the window path sums on each side of the peak
+ * (docs/theory.md, "Channel window"); rows that need more take the log path. */
+#define VG_RATE_WINDOW_MAX 24
+
 /* Everything a run of points sharing one mode record, one reorganization
  * and one coupling has in common (a row of the gap axis on a sweep), with an
  * optional caller-owned cache of the channel step ratios
  * q_n = exp(ln W_{n+1} - ln W_n - (2n+1) (hbar omega)^2 / (4 lam kT)), so that
  * a point of the row costs one exp for its gap and a multiplication per
- * channel.  Filling the cache never changes a result: a point gives the same
+ * channel of its window.  Filling the cache never changes a result: a point gives the same
  * bits through vg_rate_eval_row with or without it, and through vg_rate_eval.
  * docs/theory.md, "Channel window", and docs/performance.md. */
 typedef struct {
@@ -91,6 +95,19 @@ typedef struct {
     double *q;          /* q_n, or -1 where the step is outside the linear range */
     double *qi;         /* 1 / q_n */
     unsigned *q_gen;
+    /* The channel window: win_k channels each side of the peak for the
+     * tolerance win_tol (0: the log path), and the step ratios of the window
+     * last used, q_n and 1/q_n for n in [w_lo, w_hi) (w_ok 0: one is outside
+     * the linear range).  Filled by the kernel; reset by vg_rate_row_begin. */
+    double win_tol;
+    int win_k, w_ok;
+    long w_lo, w_hi;
+    /* Channels [mono_lo, mono_hi] whose q_n are known to be in the linear
+     * range and non-increasing, and the peak of the last group of gaps
+     * (p_set 0: none yet), which the next group tries first. */
+    long mono_lo, mono_hi, p_prev;
+    int p_set;
+    double wq[2 * VG_RATE_WINDOW_MAX], wqi[2 * VG_RATE_WINDOW_MAX];
 } vg_rate_row;
 
 /* Fill m for (S, hbar*omega, T).  Returns VG_ENUMERIC with a message if the
@@ -140,6 +157,29 @@ vg_status vg_rate_row_begin(vg_rate_row *row, const vg_rate_mode *m, double reor
  * row's reorganization, row's coupling, ...). */
 vg_status vg_rate_eval_row(vg_rate_mode *m, vg_rate_row *row, double gap_meV, double tol,
                            vg_rates *out, vg_error *err);
+
+/* Rates at n gaps of the row into out[0..n): the same bits as n calls of
+ * vg_rate_eval_row, computed four gaps at a time (docs/theory.md, "Channel
+ * window").  *done is the number of leading points computed; on an error it
+ * is the index of the point the message names. */
+vg_status vg_rate_eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const double *gap_meV,
+                            double tol, vg_rates *out, size_t *done, vg_error *err);
+
+/* The rates of a run of points of one row as arrays (the sweep's form of
+ * vg_rates): element i of each array belongs to point i.  The two flags are
+ * the row's, which every point of it shares. */
+typedef struct {
+    double *ln_k_elastic, *ln_k_assisted, *ln_k_total, *ln_k_bare;
+    double *ln_fc_elastic, *ln_fc_assisted, *ln_fc_total, *ln_fc_bare;
+    double *assisted_fraction;
+    int assisted_zero, coupling_zero;
+} vg_rates_run;
+
+/* vg_rate_eval_gaps into arrays (every array holds n elements): the same
+ * bits in every field, without the channel window fields. */
+vg_status vg_rate_eval_gaps_run(vg_rate_mode *m, vg_rate_row *row, size_t n,
+                                const double *gap_meV, double tol, vg_rates_run *out,
+                                size_t *done, vg_error *err);
 
 /* Batch form: count points sharing one mode. */
 vg_status vg_rate_eval_batch(vg_rate_mode *m, size_t count, const double *gap_meV,

@@ -72,6 +72,10 @@ int vg_metric_find(const char *name)
     return -1;
 }
 
+/* Two doubles, for the stores of the sweep's usual case (GCC vector type;
+ * lane-wise IEEE arithmetic, so the bits are the scalar expressions'). */
+typedef double v2d __attribute__((vector_size(16)));
+
 /* log10 of a rate, or VG_FILL where the rate is exactly zero. */
 static double log10_or_fill(double ln_value, int zero)
 {
@@ -83,37 +87,53 @@ void vg_metrics_from_rates(const vg_rates *r, double out[VG_N_METRICS])
     vg_metrics_compute(r, NULL, NULL, out);
 }
 
+/* The light metrics from a point's values (one expression for records and
+ * for arrays, so that both give the same bits). */
+static inline void light_values(double ln_k_elastic, double ln_k_assisted, double ln_k_total,
+                                double ln_k_bare, double ln_fc_elastic, double ln_fc_assisted,
+                                double ln_fc_total, double ln_fc_bare, double fraction, int vz,
+                                int sz, double out[VG_N_METRICS])
+{
+    out[VG_M_LOG10_K_ELASTIC] = log10_or_fill(ln_k_elastic, vz);
+    out[VG_M_LOG10_K_ASSISTED] = log10_or_fill(ln_k_assisted, vz || sz);
+    out[VG_M_LOG10_K_TOTAL] = log10_or_fill(ln_k_total, vz);
+    out[VG_M_LOG10_K_BARE] = log10_or_fill(ln_k_bare, vz);
+    out[VG_M_LOG10_RATIO] = log10_or_fill(ln_fc_assisted - ln_fc_elastic, sz);
+    out[VG_M_ASSISTED_FRACTION] = sz ? 0.0 : fraction;
+    out[VG_M_LOG10_CONTRAST] = (ln_fc_total - ln_fc_bare) * VG_LOG10E;
+}
+
 /* The light metrics of r. */
 static void light_metrics(const vg_rates *r, double out[VG_N_METRICS])
 {
-    int vz = r->coupling_zero;
-    int sz = r->assisted_zero;
-
-    out[VG_M_LOG10_K_ELASTIC] = log10_or_fill(r->ln_k_elastic, vz);
-    out[VG_M_LOG10_K_ASSISTED] = log10_or_fill(r->ln_k_assisted, vz || sz);
-    out[VG_M_LOG10_K_TOTAL] = log10_or_fill(r->ln_k_total, vz);
-    out[VG_M_LOG10_K_BARE] = log10_or_fill(r->ln_k_bare, vz);
-    out[VG_M_LOG10_RATIO] = log10_or_fill(r->ln_fc_assisted - r->ln_fc_elastic, sz);
-    out[VG_M_ASSISTED_FRACTION] = sz ? 0.0 : r->assisted_fraction;
-    out[VG_M_LOG10_CONTRAST] = (r->ln_fc_total - r->ln_fc_bare) * VG_LOG10E;
+    light_values(r->ln_k_elastic, r->ln_k_assisted, r->ln_k_total, r->ln_k_bare,
+                 r->ln_fc_elastic, r->ln_fc_assisted, r->ln_fc_total, r->ln_fc_bare,
+                 r->assisted_fraction, r->coupling_zero, r->assisted_zero, out);
 }
 
 /* Beyond this |log10| the linear isotope effect is not stored (it would
  * leave the double range); log10_isotope_effect carries it. */
 #define ISOTOPE_LOG10_MAX 300.0
 
-static void heavy_metrics(const vg_rates *light, const vg_rates *heavy,
-                          double out[VG_N_METRICS])
+static inline void heavy_values(double light_ln_fc_total, double heavy_ln_fc_total,
+                                double heavy_ln_k_total, int heavy_vz, double out[VG_N_METRICS])
 {
     /* from the prefactor-free sums: the prefactor is the same for both
      * isotopologues (it holds V, lambda and T only), and they stay defined
      * at V = 0 */
-    double l10 = (light->ln_fc_total - heavy->ln_fc_total) * VG_LOG10E;
+    double l10 = (light_ln_fc_total - heavy_ln_fc_total) * VG_LOG10E;
 
-    out[VG_M_LOG10_K_TOTAL_HEAVY] = log10_or_fill(heavy->ln_k_total, heavy->coupling_zero);
+    out[VG_M_LOG10_K_TOTAL_HEAVY] = log10_or_fill(heavy_ln_k_total, heavy_vz);
     out[VG_M_LOG10_ISOTOPE_EFFECT] = l10;
     out[VG_M_ISOTOPE_EFFECT] = fabs(l10) <= ISOTOPE_LOG10_MAX
-                               ? exp((light->ln_fc_total - heavy->ln_fc_total)) : VG_FILL;
+                               ? exp((light_ln_fc_total - heavy_ln_fc_total)) : VG_FILL;
+}
+
+static void heavy_metrics(const vg_rates *light, const vg_rates *heavy,
+                          double out[VG_N_METRICS])
+{
+    heavy_values(light->ln_fc_total, heavy->ln_fc_total, heavy->ln_k_total,
+                 heavy->coupling_zero, out);
 }
 
 /* A stored value as the comparisons see it: VG_FILL (a rate that is exactly
@@ -172,4 +192,50 @@ void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
                         const vg_require_set *req, double out[VG_N_METRICS])
 {
     vg_metrics_compute_full(light, heavy, NULL, VG_FILL, VG_FILL, req, out);
+}
+
+void vg_metrics_compute_run(size_t n, const vg_rates_run *light, const vg_rates_run *heavy,
+                            const double *valid, const double *failed,
+                            const vg_require_set *req, double *out)
+{
+    if (!light->coupling_zero && !light->assisted_zero && !heavy && !valid && !failed
+        && !(req && req->n > 0)) {
+        /* the usual case, the same expressions without the flags' branches,
+         * stored two values at a time (the store of 15 doubles a point, not
+         * their arithmetic, is what this loop's time goes to) */
+        const v2d l10 = {VG_LOG10E, VG_LOG10E}, fill = {VG_FILL, VG_FILL};
+        for (size_t i = 0; i < n; i++, out += VG_N_METRICS) {
+            v2d a = (v2d){light->ln_k_elastic[i], light->ln_k_assisted[i]} * l10;
+            v2d b = (v2d){light->ln_k_total[i], light->ln_k_bare[i]} * l10;
+            v2d c = {(light->ln_fc_assisted[i] - light->ln_fc_elastic[i]) * VG_LOG10E,
+                     light->assisted_fraction[i]};
+            _Static_assert(VG_M_LOG10_K_ASSISTED == 1 && VG_M_LOG10_K_TOTAL == 2
+                           && VG_M_LOG10_K_BARE == 3 && VG_M_LOG10_RATIO == 4
+                           && VG_M_ASSISTED_FRACTION == 5 && VG_M_LOG10_CONTRAST == 6
+                           && VG_N_METRICS == 15, "the stores below follow the metric order");
+            memcpy(out, &a, sizeof a);
+            memcpy(out + 2, &b, sizeof b);
+            memcpy(out + 4, &c, sizeof c);
+            out[VG_M_LOG10_CONTRAST] = (light->ln_fc_total[i] - light->ln_fc_bare[i]) * VG_LOG10E;
+            for (int k = 7; k < VG_N_METRICS - 1; k += 2) /* every other metric is fill here */
+                memcpy(out + k, &fill, sizeof fill);
+        }
+        return;
+    }
+    for (size_t i = 0; i < n; i++, out += VG_N_METRICS) {
+        light_values(light->ln_k_elastic[i], light->ln_k_assisted[i], light->ln_k_total[i],
+                     light->ln_k_bare[i], light->ln_fc_elastic[i], light->ln_fc_assisted[i],
+                     light->ln_fc_total[i], light->ln_fc_bare[i], light->assisted_fraction[i],
+                     light->coupling_zero, light->assisted_zero, out);
+        out[VG_M_LOG10_K_TOTAL_HEAVY] = out[VG_M_ISOTOPE_EFFECT] = VG_FILL;
+        out[VG_M_LOG10_ISOTOPE_EFFECT] = out[VG_M_FEASIBLE] = VG_FILL;
+        out[VG_M_DISCRIMINATION] = out[VG_M_LOG10_DISCRIMINATION] = VG_FILL;
+        out[VG_M_VALID] = valid ? valid[i] : VG_FILL;
+        out[VG_M_FAILED_CRITERIA] = failed ? failed[i] : VG_FILL;
+        if (heavy)
+            heavy_values(light->ln_fc_total[i], heavy->ln_fc_total[i], heavy->ln_k_total[i],
+                         heavy->coupling_zero, out);
+        if (req && req->n > 0)
+            out[VG_M_FEASIBLE] = vg_require_holds(req, out) ? 1.0 : 0.0;
+    }
 }

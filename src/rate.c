@@ -5,26 +5,32 @@
  * the tests.  Everything is a natural log; no rate is ever formed in linear
  * form except as a ratio to the largest term of a sum.
  *
- * Pure: no I/O, no allocation, no static state.  GSL reports an underflow of
+ * Pure: no I/O, no allocation, no static state (the loader's choice of the
+ * lanes' build, AVX2 or baseline, is made once at start-up).  GSL reports an underflow of
  * gsl_sf_bessel_In_scaled_e through its status (which is checked and answered
  * by the asymptotic branch), so the caller must have switched GSL's abort
  * handler off (main calls gsl_set_error_handler_off() once).
  *
  * Channel window (docs/theory.md, "Channel window"): a_n = ln W_n + ln G_n is
- * concave in n, so the terms are unimodal.  The peak is found by walking
- * uphill from the Gaussian centre (bisection on the sign of a_{n+1} - a_n
- * when it is more than a few steps away), the sum runs outward from it, and
- * a side stops when the geometric bound on its tail falls below tol/4 of the
- * sum so far.
+ * concave in n, so the terms are unimodal.  Two paths compute the sums:
+ *   - the window path (docs/theory.md 4.2a), which nearly every point of a
+ *     sweep takes: the peak by a short walk, a fixed window of K channels
+ *     each side (K from the row's curvature and the tolerance), terms as
+ *     products of cached step ratios, four gaps at a time in vector lanes;
+ *   - the log path (4.2) for the rest: the peak by walking or bisection,
+ *     terms as exps of differences, each side stopped when the geometric
+ *     bound on its tail falls below tol/4 of the sum so far.
+ * Which path a point takes depends on its own inputs only, and a point
+ * gives the same bits alone or in a row.
  *
- * Cost (docs/performance.md): on a sweep the weights come from the caller's
- * table, so a point costs one exp per channel summed (the tail bound needs
- * only the ratio of two terms already formed), the logs of the sums and of
- * the prefactor, and the few terms of the walk, which the sums reuse.
+ * Cost (docs/performance.md): on a sweep the weights and step ratios come
+ * from the caller's caches, so a point costs, in vector lanes, one exp, a
+ * few multiplications per channel of its window and two logs.
  */
 #include <float.h>
 #include <limits.h>
 #include <math.h>
+#include <string.h>
 
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_sf_bessel.h>
@@ -612,31 +618,199 @@ static int rates_valid_each(const vg_rates *r)
 
 /* The same, with a fast path for the usual case: with neither flag set every
  * value must be finite, and a sum of finite logs (far below 1e300 in
- * magnitude) is finite exactly when each term is. */
-static int rates_valid(const vg_rates *r)
+ * magnitude) is finite exactly when each term is.  The flags come from the
+ * caller's locals: reading the two int fields just stored as one 8-byte load
+ * (which is what the compiler made of it) stalls store forwarding. */
+static int rates_valid(const vg_rates *r, int coupling_zero, int assisted_zero)
 {
-    if (!r->coupling_zero && !r->assisted_zero
+    if (!coupling_zero && !assisted_zero
         && isfinite(r->ln_fc_elastic + r->ln_fc_assisted + r->ln_fc_total + r->ln_fc_bare
                     + r->ln_k_elastic + r->ln_k_assisted + r->ln_k_total + r->ln_k_bare))
         return 1;
     return rates_valid_each(r);
 }
 
-/* ---- The linear path ----------------------------------------------------
+/* ---- The window path ----------------------------------------------------
  * Along the channels, t_{n+1} / t_n = exp(a_{n+1} - a_n) = q_n A with
  *   q_n = exp(ln W_{n+1} - ln W_n - (2n+1) c hbar omega^2),  c = 1 / (4 lam kT),
  *   A   = exp(2 c hbar omega (gap - lam)),
  * (expand the square in a_n).  q_n depends on the row only, A on the gap
- * only, so with the q_n cached a point costs one exp (A), a multiplication
- * per channel and the logs of its two sums.  Every term is formed as a
- * product of ratios walking outward from the peak, so each is at most 1 and
- * their relative error grows by about two ulps a step.  The path declines a
- * point (the log path above takes it) when a factor leaves
- * [e^-LIN_LIMIT, e^LIN_LIMIT] (so that no product can overflow), when the
- * peak is more than PEAK_WALK steps from the Gaussian centre, or when the
- * assisted sum relative to an elastic peak is too small to keep its digits. */
+ * only.  The sums run over a fixed window n in [p - K, p + K] about the peak
+ * p (clipped at the lowest channel with a weight), where K depends on the
+ * row and the tolerance only: a_n is concave with second differences at most
+ * -2 c hbar omega^2, so a_{p+-k} - a_p <= -c hbar omega^2 k (k - 1), and K is
+ * the smallest k whose left-out tail bound
+ *   sum_{j > K} e^{-c hbar omega^2 j (j-1)} <= e^{-C K (K+1)} / (1 - e^{-2 C (K+1)})
+ * (C = c hbar omega^2) is below tol/4 (docs/theory.md, "Channel window").
+ * Every term is formed as a product of ratios walking outward from the peak,
+ * so each is at most 1 and their relative error grows by about two ulps a
+ * step.
+ *
+ * LANES (eight) gaps of a row are taken together as the lanes of GCC vector
+ * types.
+ * Every operation is lane-wise and exp and log of the lanes are our own, so
+ * a lane's bits do not depend on the other lanes: a single point is the same
+ * code with its gap in every lane, and vg_rate_eval, vg_rate_eval_row and
+ * vg_rate_eval_gaps agree bit for bit.  Lanes go together only when each
+ * would take the same peak walk alone (same start, same steps) and so the
+ * same window; otherwise each lane is taken alone.
+ *
+ * The path declines a point (the log path above takes it) when a factor
+ * leaves [e^-LIN_LIMIT, e^LIN_LIMIT] (so that no product can overflow), when
+ * the peak is more than PEAK_WALK steps from the Gaussian centre, when K
+ * would exceed VG_RATE_WINDOW_MAX, or when the assisted sum relative to an
+ * elastic peak is too small to keep its digits. */
 #define LIN_LIMIT 300.0
 #define LIN_SUM_MIN 0x1p-900
+#define LANES 4 /* lane_bits is written for four */
+#define ALL_LANES ((1 << LANES) - 1)
+
+/* Every function that takes or returns a vector is always inlined: a call
+ * between the AVX2 build and a baseline one would pass the vector in
+ * different places (the ABI change GCC warns about, silenced here because
+ * no such call exists). */
+#pragma GCC diagnostic ignored "-Wpsabi"
+typedef double vd __attribute__((vector_size(8 * LANES)));
+typedef long long vi __attribute__((vector_size(8 * LANES)));
+typedef unsigned long long vu __attribute__((vector_size(8 * LANES)));
+
+/* The lanes' code is built three times, for AVX-512, AVX2 and baseline
+ * x86-64, and the one the CPU supports is chosen when the program starts.
+ * Every build runs
+ * the same IEEE operations in the same order (no fused multiply-add: the
+ * Makefile passes -ffp-contract=off), so they give the same bits; a test
+ * compares a build with the baseline version only against the usual one. */
+#if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__) && !defined(VG_NO_CLONES)
+#define VG_LANES_CLONES __attribute__((target_clones("avx2", "default")))
+#else
+#define VG_LANES_CLONES
+#endif
+
+/* ln 2 in two parts, the first with 21 trailing zero bits so that k ln2_hi is
+ * exact for |k| < 2^21 (Cody & Waite's reduction; the split of fdlibm's
+ * e_exp.c, common practice). */
+#define LN2_HI 0x1.62e42fee00000p-1
+#define LN2_LO 0x1.a39ef35793c76p-33
+
+static inline __attribute__((always_inline)) vd vsplat(double x)
+{
+    return (vd){x, x, x, x}; /* not {0} + x, which must keep -0 + 0 = +0 */
+}
+
+static inline __attribute__((always_inline)) vu usplat(unsigned long long x)
+{
+    return (vu){x, x, x, x};
+}
+
+/* a > b lane by lane, as all ones or zeros, from the sign of b - a: exact
+ * for the kernel's operands (never NaN; b - a is never -0, as one side is
+ * always a nonzero constant).  The compiler lowers a vector comparison wider
+ * than the machine's registers to one scalar comparison a lane; this is a
+ * subtraction, a shift and a negation in any width. */
+static inline __attribute__((always_inline)) vi vgt(vd a, vd b)
+{
+    return (vi){0} - (vi)((vu)(b - a) >> 63);
+}
+
+/* mask ? a : b, lane by lane (mask lanes are all ones or all zeros). */
+static inline __attribute__((always_inline)) vd vsel(vi mask, vd a, vd b)
+{
+    return (vd)(((vi)a & mask) | ((vi)b & ~mask));
+}
+
+/* The lanes of mask that are set, as bits (lane i: bit i), and whether all
+ * are: by two shuffles, not by reading each lane out. */
+static inline __attribute__((always_inline)) int lane_bits(vi mask)
+{
+    vi b = mask & (vi){1, 2, 4, 8};
+
+    b |= __builtin_shufflevector(b, b, 2, 3, 0, 1);
+    b |= __builtin_shufflevector(b, b, 1, 0, 3, 2);
+    return (int)b[0];
+}
+
+static inline __attribute__((always_inline)) int all_lanes(vi mask)
+{
+    return lane_bits(mask) == ALL_LANES;
+}
+
+/* e^x lane by lane for |x| <= 708 (the callers keep to that): x = k ln2 + r
+ * with |r| <= ln2/2, e^r by its Taylor polynomial to r^13 (the first term
+ * left out is below 2^-57), evaluated by Estrin's scheme, and 2^k formed in
+ * the exponent bits.  A few ulps. */
+static inline __attribute__((always_inline)) vd vexp(vd x)
+{
+    const vd shift = vsplat(0x1.8p52);
+    vd kd = x * vsplat(0x1.71547652b82fep0) + shift; /* x / ln 2, rounded to an integer */
+    vu k = (vu)kd - usplat(0x4338000000000000ULL);
+    vd n = kd - shift;
+    vd r = (x - n * vsplat(LN2_HI)) - n * vsplat(LN2_LO);
+    vd r2 = r * r, r4 = r2 * r2, r8 = r4 * r4;
+    vd p01 = vsplat(1.0) + r;
+    vd p23 = vsplat(1.0 / 2.0) + r * vsplat(1.0 / 6.0);
+    vd p45 = vsplat(1.0 / 24.0) + r * vsplat(1.0 / 120.0);
+    vd p67 = vsplat(1.0 / 720.0) + r * vsplat(1.0 / 5040.0);
+    vd p89 = vsplat(1.0 / 40320.0) + r * vsplat(1.0 / 362880.0);
+    vd pab = vsplat(1.0 / 3628800.0) + r * vsplat(1.0 / 39916800.0);
+    vd pcd = vsplat(1.0 / 479001600.0) + r * vsplat(1.0 / 6227020800.0);
+    vd lo = (p01 + r2 * p23) + r4 * (p45 + r2 * p67);
+    vd hi = (p89 + r2 * pab) + r4 * pcd;
+    vu e = (k + 1023) << 52; /* unsigned: wraps instead of overflowing */
+
+    return (lo + r8 * hi) * (vd)e;
+}
+
+/* ln m for m in [sqrt(1/2), sqrt(2)) given f = (m - 1) / (m + 1): 2 atanh f. */
+static inline __attribute__((always_inline)) vd vlog_f(vd f)
+{
+    vd s = f * f, s2 = s * s, s4 = s2 * s2, s8 = s4 * s4;
+    vd lo = ((vsplat(1.0) + s * vsplat(1.0 / 3.0))
+             + s2 * (vsplat(1.0 / 5.0) + s * vsplat(1.0 / 7.0)))
+            + s4 * ((vsplat(1.0 / 9.0) + s * vsplat(1.0 / 11.0))
+                    + s2 * (vsplat(1.0 / 13.0) + s * vsplat(1.0 / 15.0)));
+    vd hi = (vsplat(1.0 / 17.0) + s * vsplat(1.0 / 19.0)) + s2 * vsplat(1.0 / 21.0);
+
+    return (f + f) * (lo + s8 * hi);
+}
+
+/* y = 2^e m with m in [sqrt(1/2), sqrt(2)), as vlog splits it. */
+static inline __attribute__((always_inline)) vd vlog_split(vd y, vd *e)
+{
+    const vu mant = usplat(0x000fffffffffffffULL), one = usplat(0x3ff0000000000000ULL);
+    vu b = (vu)y;
+    vd m = (vd)((b & mant) | one);
+    vi big = vgt(m, vsplat(0x1.6a09e667f3bcdp0)); /* sqrt 2 */
+    vu ex = (b >> 52) - (vu)big;
+
+    *e = ((vd)(ex | usplat(0x4330000000000000ULL)) - vsplat(0x1p52)) - vsplat(1023.0);
+    return vsel(big, m * vsplat(0.5), m);
+}
+
+/* ln y lane by lane for normal y > 0: y = 2^e m, ln m = 2 atanh f with
+ * f = (m - 1) / (m + 1), |f| <= 0.172, by its series to f^21 (the first
+ * term left out is below 2^-60 of the sum), evaluated by Estrin's scheme in
+ * s = f^2; e ln 2 in two parts.  A few ulps. */
+static inline __attribute__((always_inline)) vd vlog(vd y)
+{
+    vd e, m = vlog_split(y, &e);
+
+    return e * vsplat(LN2_HI)
+           + (vlog_f((m - vsplat(1.0)) / (m + vsplat(1.0))) + e * vsplat(LN2_LO));
+}
+
+/* The smallest k >= 1 whose tail bound (above) is below tol/4, or 0 when
+ * none up to VG_RATE_WINDOW_MAX is: then the log path takes the row. */
+static int window_k(double c, double tol)
+{
+    double lim = log(0.25 * tol);
+
+    for (int k = 1; k <= VG_RATE_WINDOW_MAX; k++) {
+        double kk = (double)k;
+        if (-c * kk * (kk + 1.0) - log1p(-exp(-2.0 * c * (kk + 1.0))) <= lim)
+            return k;
+    }
+    return 0;
+}
 
 static vg_status row_init(vg_rate_row *row, const vg_rate_mode *m, double reorg,
                           double coupling, vg_error *err)
@@ -651,6 +825,15 @@ static vg_status row_init(vg_rate_row *row, const vg_rate_mode *m, double reorg,
     row->ln_p = coupling == 0.0 ? 0.0 : ln_prefactor(coupling, reorg, m->kT);
     row->two_c_mode = 2.0 * m->mode * row->inv4lkt;
     row->c_mode2 = m->mode * m->mode * row->inv4lkt;
+    row->win_tol = 0.0;
+    row->win_k = 0;
+    row->w_lo = 1;
+    row->w_hi = 0;
+    row->w_ok = 0;
+    row->mono_lo = 1;
+    row->mono_hi = 0;
+    row->p_set = 0;
+    row->p_prev = 0;
     return VG_OK;
 }
 
@@ -718,9 +901,8 @@ static inline int q_get(vg_rate_mode *m, vg_rate_row *row, long n, double q[2])
 
 /* The peak p (the smallest n >= nmin with t_{n+1} <= t_n) by walking from
  * channel g; 0 if it is farther than PEAK_WALK steps or a step is outside
- * the linear range. */
-static int lin_peak(vg_rate_mode *m, vg_rate_row *row, long nmin, long g, double A,
-                    long *p)
+ * the linear range.  This walk defines a point's peak. */
+static int lin_peak(vg_rate_mode *m, vg_rate_row *row, long nmin, long g, double A, long *p)
 {
     double q[2];
     int k;
@@ -744,132 +926,249 @@ static int lin_peak(vg_rate_mode *m, vg_rate_row *row, long nmin, long g, double
     return 1;
 }
 
-/* Sums of t_n = exp(a_n - a_p) outward from the peak p: the assisted ones
- * into *sum, t_0 into *t0 if a side reached n = 0 (else left alone).  The
- * stopping rule is sum_side's (log-concavity bounds each side's rest by
- * t_n^2 / (t_{n-dir} - t_n)).  0 if a step is outside the linear range. */
-static int lin_sums(vg_rate_mode *m, vg_rate_row *row, long nmin, long p, double A,
-                    double Ai, double tol4, double *sum, double *t0, long *lo, long *hi)
+/* 1 if every q_n for n in [lo, hi] is in the linear range and
+ * q_lo >= q_{lo+1} >= ... >= q_hi (as the concavity of a_n makes them,
+ * which rounding could in principle spoil); the range found so is kept in
+ * the row, so that a row's points check each channel once. */
+static int q_monotone(vg_rate_mode *m, vg_rate_row *row, long lo, long hi)
 {
-    double q[2], t = 1.0, tp;
-    long n;
+    double q[2], prev;
 
-    for (n = p;;) {
-        if (n >= CHANNEL_LIMIT || !q_get(m, row, n, q))
+    if (row->mono_lo <= lo && hi <= row->mono_hi)
+        return 1;
+    if (!q_get(m, row, lo, q))
+        return 0;
+    prev = q[0];
+    for (long n = lo + 1; n <= hi; n++) {
+        if (!q_get(m, row, n, q) || q[0] > prev)
             return 0;
-        tp = t;
-        t *= q[0] * A;
-        if (++n != 0)
-            *sum += t;
-        else
-            *t0 = t;
-        if (!(t * t > tol4 * *sum * (tp - t)))
-            break;
+        prev = q[0];
     }
-    *hi = n;
-    for (n = p, t = 1.0; n > nmin;) {
-        if (!q_get(m, row, n - 1, q))
-            return 0;
-        tp = t;
-        t *= q[1] * Ai;
-        if (--n != 0)
-            *sum += t;
-        else
-            *t0 = t;
-        if (!(t * t > tol4 * *sum * (tp - t)))
-            break;
+    if (lo <= row->mono_hi && hi >= row->mono_lo) { /* overlapping: the union holds too */
+        row->mono_lo = lo < row->mono_lo ? lo : row->mono_lo;
+        row->mono_hi = hi > row->mono_hi ? hi : row->mono_hi;
+    } else {
+        row->mono_lo = lo;
+        row->mono_hi = hi;
     }
-    *lo = n;
     return 1;
 }
 
-/* ln(1 + x) for 0 <= x <= 1: below 2^-10 by its series to x^6 (the first
- * term left out, x^7/7, is below 2^-70 x, far under an ulp of the result),
- * otherwise log1p.  Most points of a sweep have one channel class far
- * larger than the other, and there this saves a log. */
-static inline double log1p_small(double x)
+/* 1 if every lane alone would walk to peak p (lin_peak from its start
+ * with its own A): each start within PEAK_WALK - 1 steps of p, the q_n on
+ * the walks in the linear range and non-increasing (so that q_n A_i falls
+ * through 1 once), and p a peak for every lane (q_p A_i <= 1, and
+ * q_{p-1} A_i > 1 unless p is the lowest channel). */
+static inline __attribute__((always_inline)) int lanes_reach(vg_rate_mode *m, vg_rate_row *row,
+                                                              long nmin, long p, long gmin,
+                                                              long gmax, const vd *Ap)
 {
-    if (x >= 0x1p-10)
-        return log1p(x);
-    return x * (1.0 - x * (1.0 / 2.0 - x * (1.0 / 3.0 - x * (1.0 / 4.0
-           - x * (1.0 / 5.0 - x * (1.0 / 6.0))))));
+    vd A = *Ap;
+    double q[2], qm[2];
+    long lo = gmin < p - 1 ? gmin : p - 1, hi = gmax > p ? gmax : p;
+    vi bad;
+
+    if (gmax - p >= PEAK_WALK || p - gmin >= PEAK_WALK)
+        return 0;
+    lo = lo < nmin ? nmin : lo;
+    if (!q_monotone(m, row, lo, hi) || !q_get(m, row, p, q))
+        return 0;
+    bad = vgt(vsplat(q[0]) * A, vsplat(1.0));
+    if (p > nmin) {
+        if (!q_get(m, row, p - 1, qm))
+            return 0;
+        bad |= ~vgt(vsplat(qm[0]) * A, vsplat(1.0));
+    }
+    return lane_bits(bad) == 0;
 }
 
-/* A point between the steps of vg_rate_eval_row. */
+/* q_n and 1/q_n for n in [lo, hi) in the row's window buffer; 0 if a step
+ * is outside the linear range. */
+static int window_fill(vg_rate_mode *m, vg_rate_row *row, long lo, long hi)
+{
+    if (row->w_lo == lo && row->w_hi == hi)
+        return row->w_ok;
+    row->w_lo = lo;
+    row->w_hi = hi;
+    row->w_ok = 1;
+    for (long n = lo; n < hi; n++) {
+        double q[2];
+        if (!q_get(m, row, n, q)) {
+            row->w_ok = 0;
+            break;
+        }
+        row->wq[n - lo] = q[0];
+        row->wqi[n - lo] = q[1];
+    }
+    return row->w_ok;
+}
+
+/* Groups of LANES gaps the window path takes in one call (its passes run
+ * over all of them, so that the latency of one group's exp, sums and logs
+ * overlaps the next group's). */
+#define GROUPS 16
+
+/* Lane results of the window path, one group: the prefactor-free logs, the
+ * fraction, the rates with the prefactor, and the window. */
 typedef struct {
-    double d;      /* gap - reorganization */
-    double A;      /* exp(2 c hbar omega d) */
-    double sum;    /* assisted sum relative to the peak term */
-    double t0;     /* t_0 relative to the peak term, -1 until known */
-    long p;        /* the peak channel */
-    int lin;       /* 1 while the linear path keeps the point */
-} lin_point;
+    vd bare, elastic, assisted, total, fraction;
+    vd k_bare, k_elastic, k_assisted, k_total;
+    long lo, hi, p;
+} lanes_out;
 
-/* Step 1: the inputs, the elastic and bare logs, and A. */
-static void step_start(vg_rate_mode *m, const vg_rate_row *row, double gap, lin_point *lp,
-                       vg_rates *out)
-{
-    chan_seq s = {m, gap - row->reorg, row->inv4lkt, 0};
-    double ln_a = row->two_c_mode * s.d;
-    double centre = s.d * m->inv_mode;
+/* What a group needs after the window path (win_run's mask[j]). */
+#define LANES_ALONE (-1) /* the lanes must each be taken alone */
+#define LANES_PENDING 32  /* (inside win_run) the window path goes on */
 
-    lp->d = s.d;
-    out->ln_fc_bare = ln_gauss(s.d, 0.0, s.inv4lkt);
-    out->ln_fc_elastic = chan_a(&s, 0);
-    out->ln_fc_assisted = -HUGE_VAL;
-    out->ln_fc_total = out->ln_fc_elastic;
-    out->assisted_fraction = 0.0;
-    out->assisted_zero = m->S == 0.0;
-    out->n_lo = out->n_hi = out->n_peak = 0;
-    lp->lin = !out->assisted_zero && fabs(ln_a) <= LIN_LIMIT
-              && fabs(centre) <= (double)CHANNEL_LIMIT && m->S <= (double)CHANNEL_LIMIT;
-    lp->p = lp->lin ? (long)centre : 0;
-    lp->A = lp->lin ? exp(ln_a) : 0.0;
-}
-
-/* Step 2: the peak and the sums (declines the point by clearing lin). */
-static void step_sums(vg_rate_mode *m, vg_rate_row *row, double tol, lin_point *lp,
-                      vg_rates *out)
+/* Rates of ng groups of LANES gaps g[LANES j ..] by the window path, into
+ * o[j].  mask[j] is LANES_ALONE when the lanes of group j must be taken
+ * alone (they are not eligible alike, or would not all walk to the same
+ * peak), else a bit mask of the lanes the log path must take (bit i: lane
+ * i; ALL_LANES: all).  Every lane the log path does not take is complete,
+ * prefactor included; ok[j] marks the lanes whose eight logs are finite. */
+static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, const double *g,
+                                    double tol, lanes_out *o, int *mask, vi *ok)
 {
     long nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
-    long g = lp->p < nmin ? nmin : lp->p;
+    vd inv4lkt = vsplat(row->inv4lkt), lim = vsplat(LIN_LIMIT), one = vsplat(1.0);
+    vd A[GROUPS], Ai[GROUPS], up[GROUPS], dn[GROUPS], ap[GROUPS], d[GROUPS];
+    long gmin[GROUPS], gmax[GROUPS];
+    double lw0 = ln_w(m, 0);
+    int k;
 
-    if (!lp->lin)
-        return;
-    lp->lin = lin_peak(m, row, nmin, g, lp->A, &lp->p);
-    if (!lp->lin)
-        return;
-    lp->sum = lp->p != 0 ? 1.0 : 0.0;
-    lp->t0 = lp->p == 0 ? 1.0 : -1.0;
-    lp->lin = lin_sums(m, row, nmin, lp->p, lp->A, 1.0 / lp->A, 0.25 * tol, &lp->sum,
-                       &lp->t0, &out->n_lo, &out->n_hi)
-              && lp->sum >= LIN_SUM_MIN;
-}
-
-/* Step 3: the logs of the sums and the fraction. */
-static void step_logs(vg_rate_mode *m, const vg_rate_row *row, lin_point *lp, vg_rates *out)
-{
-    chan_seq s = {m, lp->d, row->inv4lkt, 0};
-    double a_p, sum = lp->sum, t0 = lp->t0;
-
-    if (!lp->lin)
-        return;
-    a_p = chan_a(&s, lp->p);
-    if (t0 < 0.0) { /* the window stopped short of n = 0, so t_0 < t_p */
-        double dl = out->ln_fc_elastic - a_p;
-        t0 = dl < log(HALF_ULP) ? 0.0 : exp(dl);
+    if (row->win_tol != tol) {
+        row->win_tol = tol;
+        row->win_k = window_k(row->c_mode2, tol);
     }
-    out->n_peak = lp->p;
-    out->ln_fc_assisted = a_p + log(sum);
-    if (t0 <= HALF_ULP * sum)
-        out->ln_fc_total = out->ln_fc_assisted;
-    else if (t0 * HALF_ULP > sum)
-        out->ln_fc_total = out->ln_fc_elastic;
-    else if (sum >= t0) /* the larger part's log is known: add log1p of the ratio */
-        out->ln_fc_total = out->ln_fc_assisted + log1p_small(t0 / sum);
-    else
-        out->ln_fc_total = out->ln_fc_elastic + log1p_small(sum / t0);
-    out->assisted_fraction = sum / (sum + t0);
+    k = row->win_k;
+    for (int j = 0; j < ng; j++) { /* the closed forms, eligibility and A */
+        const double *gj = g + LANES * j;
+        vd gap, ln_a, centre;
+        vi in;
+        for (int i = 0; i < LANES; i++)
+            gap[i] = gj[i];
+        d[j] = gap - vsplat(row->reorg);
+        ln_a = vsplat(row->two_c_mode) * d[j];
+        centre = d[j] * vsplat(m->inv_mode);
+        o[j].bare = (-d[j] * d[j]) * inv4lkt;
+        o[j].elastic = vsplat(lw0) + o[j].bare;
+        o[j].assisted = vsplat(-HUGE_VAL);
+        o[j].total = o[j].elastic;
+        o[j].fraction = vsplat(0.0);
+        o[j].lo = o[j].hi = o[j].p = 0;
+        in = ~(vgt(ln_a, lim) | vgt(-lim, ln_a) | vgt(centre, vsplat((double)CHANNEL_LIMIT))
+               | vgt(vsplat(-(double)CHANNEL_LIMIT), centre));
+        A[j] = vexp(vsel(in, ln_a, vsplat(0.0)));
+        Ai[j] = one / A[j];
+        if (m->S == 0.0) { /* no assisted channel: every lane is complete */
+            mask[j] = 0;
+            continue;
+        }
+        if (!all_lanes(in)) {
+            mask[j] = lane_bits(in) != 0 ? LANES_ALONE : ALL_LANES;
+            continue;
+        }
+        if (m->S > (double)CHANNEL_LIMIT || k == 0) {
+            mask[j] = ALL_LANES;
+            continue;
+        }
+        gmin[j] = gmax[j] = 0;
+        for (int i = 0; i < LANES; i++) {
+            long gi = (long)centre[i];
+            gi = gi < nmin ? nmin : gi;
+            gmin[j] = i == 0 || gi < gmin[j] ? gi : gmin[j];
+            gmax[j] = i == 0 || gi > gmax[j] ? gi : gmax[j];
+            if (i == 0)
+                o[j].p = gi; /* lane 0's start, until the peak is known */
+        }
+        mask[j] = LANES_PENDING;
+    }
+    for (int j = 0; j < ng; j++) { /* the peak, the window and its sums */
+        const double *gj = g + LANES * j;
+        int single = 1, t0_known;
+        long p, lo, hi;
+        vd t, t0, sum_up, sum_dn, u;
+        if (mask[j] != LANES_PENDING)
+            continue;
+        for (int i = 1; i < LANES; i++)
+            single &= gj[i] == gj[0];
+        /* the last group's peak if every lane would reach it, else lane 0's
+         * walk (for a point alone, the walk is the definition) */
+        if (single || !row->p_set
+            || !lanes_reach(m, row, nmin, row->p_prev, gmin[j], gmax[j], &A[j])) {
+            if (!lin_peak(m, row, nmin, o[j].p, A[j][0], &p)) {
+                mask[j] = single ? ALL_LANES : LANES_ALONE;
+                continue;
+            }
+            if (!single && !lanes_reach(m, row, nmin, p, gmin[j], gmax[j], &A[j])) {
+                mask[j] = LANES_ALONE;
+                continue;
+            }
+            row->p_prev = p;
+            row->p_set = 1;
+        } else {
+            p = row->p_prev;
+        }
+        lo = p - k < nmin ? nmin : p - k;
+        hi = p + k;
+        if (hi >= CHANNEL_LIMIT || lo <= -CHANNEL_LIMIT || !window_fill(m, row, lo, hi)) {
+            mask[j] = ALL_LANES;
+            continue;
+        }
+        sum_up = sum_dn = vsplat(0.0);
+        t0 = one;
+        t0_known = p == 0 || (lo <= 0 && 0 <= hi);
+        t = one;
+        for (long n = p; n < hi; n++) { /* t_{n+1} = t_n q_n A */
+            t = t * (vsplat(row->wq[n - lo]) * A[j]);
+            if (n + 1 != 0)
+                sum_up += t;
+            else
+                t0 = t;
+        }
+        t = one;
+        for (long n = p; n > lo; n--) { /* t_{n-1} = t_n / (q_{n-1} A) */
+            t = t * (vsplat(row->wqi[n - 1 - lo]) * Ai[j]);
+            if (n - 1 != 0)
+                sum_dn += t;
+            else
+                t0 = t;
+        }
+        u = d[j] - vsplat((double)p * m->mode);
+        ap[j] = vsplat(ln_w(m, p)) + (-u * u) * inv4lkt;
+        if (!t0_known) { /* the window stops short of n = 0, so t_0 < t_p */
+            vd dl = o[j].elastic - ap[j];
+            t0 = vexp(vsel(vgt(vsplat(-700.0), dl), vsplat(-700.0), dl));
+        }
+        up[j] = (p != 0 ? one : vsplat(0.0)) + sum_up + sum_dn;
+        dn[j] = up[j] + t0;
+        o[j].lo = lo;
+        o[j].hi = hi;
+        o[j].p = p;
+    }
+    for (int j = 0; j < ng; j++) { /* the logs, the fraction and the prefactor */
+        vd lnp = vsplat(row->ln_p), sum;
+        if (mask[j] == LANES_PENDING) {
+            vi small = vgt(vsplat(LIN_SUM_MIN), up[j]);
+            o[j].assisted = ap[j] + vlog(vsel(small, one, up[j]));
+            o[j].total = ap[j] + vlog(dn[j]);
+            o[j].fraction = up[j] / dn[j];
+            mask[j] = lane_bits(small);
+        } else if (mask[j] != 0) {
+            o[j].p = 0;
+        }
+        if (row->coupling == 0.0) {
+            o[j].k_bare = o[j].k_elastic = o[j].k_assisted = o[j].k_total = vsplat(-HUGE_VAL);
+        } else {
+            o[j].k_bare = lnp + o[j].bare;
+            o[j].k_elastic = lnp + o[j].elastic;
+            o[j].k_assisted = lnp + o[j].assisted;
+            o[j].k_total = lnp + o[j].total;
+        }
+        sum = o[j].bare + o[j].elastic + o[j].assisted + o[j].total + o[j].k_bare
+              + o[j].k_elastic + o[j].k_assisted + o[j].k_total;
+        ok[j] = sum - sum == vsplat(0.0); /* finite (NaN and +-inf give NaN) */
+    }
 }
 
 /* k_assisted / k_total from the log difference, for the log path. */
@@ -882,20 +1181,43 @@ static double fraction_from_logs(double ln_assisted, double ln_elastic)
     return exp(d) / (1.0 + exp(d));
 }
 
-/* Step 4: the log path for the points the linear path declined, the
- * prefactor, and the final check. */
-static vg_status step_finish(vg_rate_mode *m, const vg_rate_row *row, double gap,
-                             double tol, const lin_point *lp, vg_rates *out, vg_error *err)
+/* Lane i of o into a result record. */
+static inline void lane_store(const lanes_out *o, int i, int coupling_zero, int assisted_zero,
+                              vg_rates *out)
 {
-    if (!out->assisted_zero && !lp->lin) {
-        chan_seq s = {m, lp->d, row->inv4lkt, m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT};
+    out->ln_fc_bare = o->bare[i];
+    out->ln_fc_elastic = o->elastic[i];
+    out->ln_fc_assisted = o->assisted[i];
+    out->ln_fc_total = o->total[i];
+    out->ln_k_bare = o->k_bare[i];
+    out->ln_k_elastic = o->k_elastic[i];
+    out->ln_k_assisted = o->k_assisted[i];
+    out->ln_k_total = o->k_total[i];
+    out->assisted_fraction = o->fraction[i];
+    out->assisted_zero = assisted_zero;
+    out->coupling_zero = coupling_zero;
+    out->n_lo = o->lo;
+    out->n_hi = o->hi;
+    out->n_peak = o->p;
+}
+
+/* The rest of a stored record where the lanes could not finish it: the
+ * log path when it must take the point, and the final check. */
+static vg_status lane_rest(vg_rate_mode *m, const vg_rate_row *row, double gap, double tol,
+                           int log_path, vg_rates *out, vg_error *err)
+{
+    int coupling_zero = row->coupling == 0.0, assisted_zero = m->S == 0.0;
+
+    if (!assisted_zero && log_path) {
+        chan_seq s = {m, gap - row->reorg, row->inv4lkt,
+                      m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT};
         vg_status st = assisted_sum(&s, tol, out, err);
         if (st != VG_OK)
             return st;
         out->assisted_fraction = fraction_from_logs(out->ln_fc_assisted, out->ln_fc_elastic);
+        finish_rates(out, row->ln_p, coupling_zero);
     }
-    finish_rates(out, row->ln_p, row->coupling == 0.0);
-    if (!rates_valid(out))
+    if (!rates_valid(out, coupling_zero, assisted_zero))
         return vg_error_set(err, VG_ENUMERIC,
                             "rate kernel produced a non-finite value at gap %g meV, "
                             "reorganization %g meV, coupling %g meV, huang_rhys %g, "
@@ -904,18 +1226,163 @@ static vg_status step_finish(vg_rate_mode *m, const vg_rate_row *row, double gap
     return VG_OK;
 }
 
+/* Point i (in its run) of a record into the arrays. */
+static void run_put(vg_rates_run *r, size_t i, const vg_rates *x)
+{
+    r->ln_k_elastic[i] = x->ln_k_elastic;
+    r->ln_k_assisted[i] = x->ln_k_assisted;
+    r->ln_k_total[i] = x->ln_k_total;
+    r->ln_k_bare[i] = x->ln_k_bare;
+    r->ln_fc_elastic[i] = x->ln_fc_elastic;
+    r->ln_fc_assisted[i] = x->ln_fc_assisted;
+    r->ln_fc_total[i] = x->ln_fc_total;
+    r->ln_fc_bare[i] = x->ln_fc_bare;
+    r->assisted_fraction[i] = x->assisted_fraction;
+}
+
+/* Lanes [0, nl) of one group into the arrays at point i0. */
+static inline void run_lanes(vg_rates_run *r, size_t i0, const lanes_out *o, int nl)
+{
+    if (nl == LANES) { /* whole vectors */
+        memcpy(r->ln_k_elastic + i0, &o->k_elastic, sizeof(vd));
+        memcpy(r->ln_k_assisted + i0, &o->k_assisted, sizeof(vd));
+        memcpy(r->ln_k_total + i0, &o->k_total, sizeof(vd));
+        memcpy(r->ln_k_bare + i0, &o->k_bare, sizeof(vd));
+        memcpy(r->ln_fc_elastic + i0, &o->elastic, sizeof(vd));
+        memcpy(r->ln_fc_assisted + i0, &o->assisted, sizeof(vd));
+        memcpy(r->ln_fc_total + i0, &o->total, sizeof(vd));
+        memcpy(r->ln_fc_bare + i0, &o->bare, sizeof(vd));
+        memcpy(r->assisted_fraction + i0, &o->fraction, sizeof(vd));
+        return;
+    }
+    for (int l = 0; l < nl; l++) {
+        r->ln_k_elastic[i0 + (size_t)l] = o->k_elastic[l];
+        r->ln_k_assisted[i0 + (size_t)l] = o->k_assisted[l];
+        r->ln_k_total[i0 + (size_t)l] = o->k_total[l];
+        r->ln_k_bare[i0 + (size_t)l] = o->k_bare[l];
+        r->ln_fc_elastic[i0 + (size_t)l] = o->elastic[l];
+        r->ln_fc_assisted[i0 + (size_t)l] = o->assisted[l];
+        r->ln_fc_total[i0 + (size_t)l] = o->total[l];
+        r->ln_fc_bare[i0 + (size_t)l] = o->bare[l];
+        r->assisted_fraction[i0 + (size_t)l] = o->fraction[l];
+    }
+}
+
+/* ng groups of LANES gaps g[0 .. LANES ng) of a row (ng <= GROUPS), of which
+ * the first nl are points, into records out[0..nl) or, with run != NULL,
+ * into its arrays from element i0; *done: how many leading ones succeeded. */
+static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, int ng, int nl,
+                          double tol, vg_rates *out, vg_rates_run *run, size_t i0,
+                          size_t *done, vg_error *err)
+{
+    lanes_out o[GROUPS], oi;
+    int mask[GROUPS], mi;
+    int cz = row->coupling == 0.0, az = m->S == 0.0;
+    vi ok[GROUPS], oki;
+
+    win_run(m, row, ng, g, tol, o, mask, ok);
+    for (int j = 0; j * LANES < nl; j++) {
+        int nj = nl - j * LANES < LANES ? nl - j * LANES : LANES;
+        /* the usual case: every lane complete, straight into the arrays */
+        if (run && mask[j] == 0 && lane_bits(ok[j]) == ALL_LANES) {
+            run_lanes(run, i0 + (size_t)(j * LANES), &o[j], nj);
+            continue;
+        }
+        for (int l = 0; l < nj; l++) {
+            int i = j * LANES + l, rest;
+            vg_rates rec, *r = run ? &rec : &out[i];
+            if (mask[j] == LANES_ALONE) { /* its gap in every lane */
+                double gi[LANES];
+                for (int l2 = 0; l2 < LANES; l2++)
+                    gi[l2] = g[i];
+                win_run(m, row, 1, gi, tol, &oi, &mi, &oki);
+                lane_store(&oi, 0, cz, az, r);
+                rest = (mi & 1) ? 1 : oki[0] == 0 ? 2 : 0;
+            } else {
+                lane_store(&o[j], l, cz, az, r);
+                rest = ((mask[j] >> l) & 1) ? 1 : ok[j][l] == 0 ? 2 : 0;
+            }
+            if (rest != 0) {
+                vg_status st = lane_rest(m, row, g[i], tol, rest == 1, r, err);
+                if (st != VG_OK) {
+                    *done = (size_t)i;
+                    return st;
+                }
+            }
+            if (run)
+                run_put(run, i0 + (size_t)i, r);
+        }
+    }
+    *done = (size_t)nl;
+    return VG_OK;
+}
+
+/* vg_rate_eval_gaps and vg_rate_eval_gaps_run (run != NULL). */
+static vg_status eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const double *gap_meV,
+                           double tol, vg_rates *out, vg_rates_run *run, size_t *done,
+                           vg_error *err)
+{
+    vg_rates probe;
+
+    *done = 0;
+    if (n == 0)
+        return VG_OK;
+    if (point_check(m, row, gap_meV[0], tol, out ? out : &probe, err) != VG_OK)
+        return VG_ENUMERIC;
+    if (run) {
+        run->assisted_zero = m->S == 0.0;
+        run->coupling_zero = row->coupling == 0.0;
+    }
+    for (size_t j = 0; j < n; j += GROUPS * LANES) {
+        size_t nl = n - j < GROUPS * LANES ? n - j : GROUPS * LANES, good = nl, ok = 0;
+        double g[GROUPS * LANES];
+        vg_status st = VG_OK;
+        for (size_t i = 0; i < nl; i++) /* the last group padded with its last gap */
+            if (!isfinite(g[i] = gap_meV[j + i]) && good == nl)
+                good = i;
+        if (good > 0) {
+            size_t ng = (good + LANES - 1) / LANES;
+            for (size_t i = good; i < ng * LANES; i++)
+                g[i] = g[good - 1];
+            st = eval_run(m, row, g, (int)ng, (int)good, tol, out ? out + j : NULL, run, j, &ok,
+                          err);
+            *done = j + ok;
+        }
+        if (st != VG_OK)
+            return st;
+        if (good < nl) /* the message of the first point that fails its check */
+            return point_check(m, row, gap_meV[j + good], tol, &probe, err);
+    }
+    return VG_OK;
+}
+
+vg_status vg_rate_eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const double *gap_meV,
+                            double tol, vg_rates *out, size_t *done, vg_error *err)
+{
+    if (!out) {
+        *done = 0;
+        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode or result record");
+    }
+    return eval_gaps(m, row, n, gap_meV, tol, out, NULL, done, err);
+}
+
+vg_status vg_rate_eval_gaps_run(vg_rate_mode *m, vg_rate_row *row, size_t n,
+                                const double *gap_meV, double tol, vg_rates_run *out,
+                                size_t *done, vg_error *err)
+{
+    if (!out) {
+        *done = 0;
+        return vg_error_set(err, VG_ENUMERIC, "rate kernel called without a mode or result record");
+    }
+    return eval_gaps(m, row, n, gap_meV, tol, NULL, out, done, err);
+}
+
 vg_status vg_rate_eval_row(vg_rate_mode *m, vg_rate_row *row, double gap_meV, double tol,
                            vg_rates *out, vg_error *err)
 {
-    lin_point lp;
-    vg_status st = point_check(m, row, gap_meV, tol, out, err);
+    size_t done;
 
-    if (st != VG_OK)
-        return st;
-    step_start(m, row, gap_meV, &lp, out);
-    step_sums(m, row, tol, &lp, out);
-    step_logs(m, row, &lp, out);
-    return step_finish(m, row, gap_meV, tol, &lp, out, err);
+    return vg_rate_eval_gaps(m, row, 1, &gap_meV, tol, out, &done, err);
 }
 
 vg_status vg_rate_eval(vg_rate_mode *m, double gap_meV, double reorg_meV,

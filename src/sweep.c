@@ -220,6 +220,44 @@ static vg_status point_valid(const vg_config *cfg, const size_t idx[VG_NPARAM], 
                              &v[0], &v[1], err);
 }
 
+/* Gaps the kernel takes at a time (the rate records of a run live on the
+ * stack: 2 x 64 x about 120 bytes). */
+#define RUN 64
+
+/* The arrays of a run record over a[0..9). */
+static void run_arrays(vg_rates_run *r, double a[9][RUN])
+{
+    r->ln_k_elastic = a[0];
+    r->ln_k_assisted = a[1];
+    r->ln_k_total = a[2];
+    r->ln_k_bare = a[3];
+    r->ln_fc_elastic = a[4];
+    r->ln_fc_assisted = a[5];
+    r->ln_fc_total = a[6];
+    r->ln_fc_bare = a[7];
+    r->assisted_fraction = a[8];
+}
+
+/* Point j of a run as a record (for the validity criteria). */
+static vg_rates run_record(const vg_rates_run *r, size_t j)
+{
+    vg_rates x;
+
+    memset(&x, 0, sizeof x);
+    x.ln_k_elastic = r->ln_k_elastic[j];
+    x.ln_k_assisted = r->ln_k_assisted[j];
+    x.ln_k_total = r->ln_k_total[j];
+    x.ln_k_bare = r->ln_k_bare[j];
+    x.ln_fc_elastic = r->ln_fc_elastic[j];
+    x.ln_fc_assisted = r->ln_fc_assisted[j];
+    x.ln_fc_total = r->ln_fc_total[j];
+    x.ln_fc_bare = r->ln_fc_bare[j];
+    x.assisted_fraction = r->assisted_fraction[j];
+    x.assisted_zero = r->assisted_zero;
+    x.coupling_zero = r->coupling_zero;
+    return x;
+}
+
 /* A segment of points that differ only in gap (consecutive along the gap
  * axis, or one point when gap is not the fastest axis): the weights' record
  * when the (S, mode, T) triple changes, the row's when (V, lambda) change
@@ -249,23 +287,58 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
                                cfg->param[VG_P_REORG].v[idx[VG_P_REORG]],
                                cfg->param[VG_P_COUPLING].v[idx[VG_P_COUPLING]], &w->err);
     w->row_key = st == VG_OK ? row_key : SIZE_MAX;
-    for (size_t j = 0; j < n; j++, out += VG_N_METRICS) {
-        vg_rates rates[2];
-        double valid[2] = {VG_FILL, VG_FILL};
-        for (int k = 0; k < niso && st == VG_OK; k++)
-            st = vg_rate_eval_row(&w->t[k].mode, &w->t[k].row, gap[j], cfg->tolerance,
-                                  &rates[k], &w->err);
-        if (st == VG_OK)
-            st = point_valid(cfg, idx, cfg->param[VG_P_MODE].v[idx[VG_P_MODE]],
-                             cfg->validity.t1_ps, &rates[0], valid, &w->err);
-        if (st != VG_OK) { /* the sweep stops at this chunk: fill the rest */
-            for (; j < n; j++, out += VG_N_METRICS)
+    for (size_t j0 = 0; j0 < n; j0 += RUN) { /* the kernel on RUN gaps at a time */
+        size_t m = n - j0 < RUN ? n - j0 : RUN, good = st == VG_OK ? m : 0;
+        double arr[2][9][RUN], valid[2][RUN];
+        vg_rates_run run[2];
+        int checks = cfg->validity.on && cfg->validity.s.enabled;
+        for (int k = 0; k < 2; k++)
+            run_arrays(&run[k], arr[k]);
+        if (good > 0) {
+            size_t g0, g1;
+            vg_status s0 = vg_rate_eval_gaps_run(&w->t[0].mode, &w->t[0].row, m, gap + j0,
+                                                 cfg->tolerance, &run[0], &g0, &w->err);
+            good = g0;
+            st = s0;
+            if (niso > 1 && good > 0) {
+                /* the heavy track over the points the light one computed: the
+                 * first point that fails names the error */
+                vg_error e0;
+                vg_status s1;
+                if (s0 != VG_OK)
+                    e0 = w->err;
+                s1 = vg_rate_eval_gaps_run(&w->t[1].mode, &w->t[1].row, good, gap + j0,
+                                           cfg->tolerance, &run[1], &g1, &w->err);
+                if (s1 != VG_OK) {
+                    st = s1;
+                    good = g1;
+                } else if (s0 != VG_OK) {
+                    w->err = e0;
+                }
+            }
+        }
+        for (size_t j = 0; checks && j < good; j++) { /* a failure here comes first */
+            vg_rates rec = run_record(&run[0], j);
+            double v[2];
+            vg_status sj = point_valid(cfg, idx, cfg->param[VG_P_MODE].v[idx[VG_P_MODE]],
+                                       cfg->validity.t1_ps, &rec, v, &w->err);
+            valid[0][j] = v[0];
+            valid[1][j] = v[1];
+            if (sj != VG_OK) {
+                good = j;
+                st = sj;
+            }
+        }
+        vg_metrics_compute_run(good, &run[0], niso > 1 ? &run[1] : NULL,
+                               checks ? valid[0] : NULL, checks ? valid[1] : NULL,
+                               &cfg->feasibility, out);
+        out += good * VG_N_METRICS;
+        if (good < m) { /* the sweep stops at this chunk: fill the rest */
+            for (size_t j = j0 + good; j < n; j++, out += VG_N_METRICS)
                 fail(w, st, flat + j, out);
             w->row_key = SIZE_MAX;
             return;
         }
-        vg_metrics_compute_full(&rates[0], niso > 1 ? &rates[1] : NULL, NULL, valid[0],
-                                valid[1], &cfg->feasibility, out);
     }
 }
 

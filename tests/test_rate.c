@@ -751,6 +751,170 @@ static void test_eval_errors(void **state)
 }
 
 /* The batch form equals the point form, and names the failing point. */
+/* A small linear congruential generator (Knuth's MMIX constants, common
+ * practice), so that the runs below are the same on every machine. */
+static double lcg_uniform(uint64_t *x)
+{
+    *x = *x * 6364136223846793005ULL + 1442695040888963407ULL;
+    return (double)(*x >> 11) * 0x1p-53;
+}
+
+/* vg_rate_eval_gaps and vg_rate_eval_gaps_run give, point for point, the bits
+ * of vg_rate_eval (which puts one gap in every lane): runs of random length
+ * (1 to 150 gaps: partial groups, several calls' worth of groups), evenly
+ * spaced (lanes that share a peak), random (lanes that do not), and repeated
+ * gaps, over thermal and frozen modes, S = 0, V = 0 and extreme corners
+ * where lanes go to the log path. */
+static void test_gap_runs_match_points(void **state)
+{
+    enum { LEN = 400, NMAX = 150 };
+    double q[LEN], qi[LEN], gaps[NMAX], arr[9][NMAX];
+    unsigned gen[LEN];
+    vg_rate_row row = {0};
+    vg_rates out[NMAX];
+    uint64_t x = 20261202;
+    int mixed = 0;
+
+    (void)state;
+    for (int trial = 0; trial < 300; trial++) {
+        vg_mode_statistics st = lcg_uniform(&x) < 0.25 ? VG_STATS_FROZEN : VG_STATS_THERMAL;
+        double S = lcg_uniform(&x) < 0.05 ? 0.0 : pow(10.0, -3.0 + 4.7 * lcg_uniform(&x));
+        double mode = pow(10.0, 3.0 * lcg_uniform(&x)), T = pow(10.0, 3.7 * lcg_uniform(&x));
+        double lam = pow(10.0, -1.0 + 4.4 * lcg_uniform(&x));
+        double V = lcg_uniform(&x) < 0.05 ? 0.0 : 1.0;
+        double g0 = -3000.0 + 6000.0 * lcg_uniform(&x), step = 40.0 * lcg_uniform(&x);
+        size_t n = 1 + (size_t)(NMAX * lcg_uniform(&x)), done = 0;
+        int kind = trial % 3;
+        vg_rate_mode m = mode_of(st, S, mode, T);
+        vg_rates_run run = {arr[0], arr[1], arr[2], arr[3], arr[4], arr[5], arr[6], arr[7],
+                            arr[8], -1, -1};
+        n = n > NMAX ? NMAX : n;
+        for (size_t i = 0; i < n; i++) {
+            gaps[i] = kind == 0   ? g0 + step * (double)i
+                      : kind == 1 ? -3000.0 + 6000.0 * lcg_uniform(&x)
+                                  : g0 + step * (double)(i / 3);
+            gaps[i] = fmax(-3000.0, fmin(3000.0, gaps[i]));
+        }
+        vg_rate_row_attach(&row, -200, LEN, q, qi, gen);
+        assert_int_equal(vg_rate_row_begin(&row, &m, lam, V, NULL), VG_OK);
+        assert_int_equal(vg_rate_eval_gaps(&m, &row, n, gaps, TIGHT, out, &done, NULL), VG_OK);
+        assert_int_equal(done, n);
+        assert_int_equal(vg_rate_row_begin(&row, &m, lam, V, NULL), VG_OK);
+        assert_int_equal(vg_rate_eval_gaps_run(&m, &row, n, gaps, TIGHT, &run, &done, NULL),
+                         VG_OK);
+        assert_int_equal(done, n);
+        assert_int_equal(run.assisted_zero, S == 0.0);
+        assert_int_equal(run.coupling_zero, V == 0.0);
+        for (size_t i = 0; i < n; i++) {
+            vg_rates one = eval_at(&m, gaps[i], lam, V, TIGHT);
+            const double *y[] = {&one.ln_k_elastic, &one.ln_k_assisted, &one.ln_k_total,
+                                 &one.ln_k_bare, &one.ln_fc_elastic, &one.ln_fc_assisted,
+                                 &one.ln_fc_total, &one.ln_fc_bare, &one.assisted_fraction};
+            assert_same_rates(&one, &out[i]);
+            for (int f = 0; f < 9; f++)
+                assert_memory_equal(&arr[f][i], y[f], sizeof(double));
+            mixed += i > 0 && out[i].n_peak != out[i - 1].n_peak;
+        }
+    }
+    assert_true(mixed > 50); /* the runs did cross peaks inside groups */
+}
+
+/* A gap that is not finite in the middle of a run: the points before it are
+ * computed, *done names it, and the message is the single point's. */
+static void test_gap_run_stops_at_bad_gap(void **state)
+{
+    double gaps[11], arr[9][11];
+    vg_rates out[11];
+    vg_rate_row row = {0};
+    vg_error err = {VG_OK, ""};
+    size_t done = 99;
+    vg_rate_mode m = mode_of(VG_STATS_THERMAL, 0.385, 200.0, 298.15);
+    vg_rates_run run = {arr[0], arr[1], arr[2], arr[3], arr[4], arr[5], arr[6], arr[7], arr[8],
+                        0, 0};
+
+    (void)state;
+    for (int i = 0; i < 11; i++)
+        gaps[i] = 10.0 * i;
+    gaps[6] = NAN;
+    assert_int_equal(vg_rate_row_begin(&row, &m, 120.0, 1.0, NULL), VG_OK);
+    assert_fails(vg_rate_eval_gaps(&m, &row, 11, gaps, TIGHT, out, &done, &err), &err, "'gap'");
+    assert_int_equal(done, 6);
+    for (int i = 0; i < 6; i++) {
+        vg_rates one = eval_at(&m, gaps[i], 120.0, 1.0, TIGHT);
+        assert_same_rates(&one, &out[i]);
+    }
+    done = 99;
+    assert_fails(vg_rate_eval_gaps_run(&m, &row, 11, gaps, TIGHT, &run, &done, &err), &err,
+                 "'gap'");
+    assert_int_equal(done, 6);
+    assert_fails(vg_rate_eval_gaps_run(&m, &row, 11, gaps, TIGHT, NULL, &done, &err), &err,
+                 "without");
+    assert_fails(vg_rate_eval_gaps(&m, &row, 3, gaps, 2.0, out, &done, &err), &err,
+                 "'tolerance'");
+    assert_int_equal(done, 0);
+}
+
+/* vg_metrics_compute_run gives, point for point, the bits of
+ * vg_metrics_compute_full on the points' records: the usual case and every
+ * other (V = 0, S = 0, the heavy track, validity values, conditions). */
+static void test_metrics_run_match_records(void **state)
+{
+    enum { N = 37 };
+    double arr[2][9][N], valid[N], failed[N], out[N * VG_N_METRICS], ref[VG_N_METRICS];
+    uint64_t x = 385;
+    vg_require_set req, none;
+
+    (void)state;
+    memset(&req, 0, sizeof req);
+    memset(&none, 0, sizeof none);
+    req.n = 2;
+    req.r[0].metric = VG_M_LOG10_RATIO;
+    req.r[0].op = VG_CMP_GT;
+    req.r[0].value = -1.0;
+    req.r[1].metric = VG_M_LOG10_K_TOTAL;
+    req.r[1].op = VG_CMP_GE;
+    req.r[1].value = 0.0;
+    for (int variant = 0; variant < 16; variant++) {
+        int vz = variant & 1, sz = (variant >> 1) & 1, heavy = (variant >> 2) & 1;
+        int extra = (variant >> 3) & 1; /* validity values and conditions */
+        vg_rates_run run[2];
+        for (int k = 0; k < 2; k++) {
+            run[k] = (vg_rates_run){arr[k][0], arr[k][1], arr[k][2], arr[k][3], arr[k][4],
+                                    arr[k][5], arr[k][6], arr[k][7], arr[k][8], sz, vz};
+            for (int f = 0; f < 9; f++)
+                for (int i = 0; i < N; i++)
+                    arr[k][f][i] = f == 8 ? lcg_uniform(&x) : 40.0 * lcg_uniform(&x) - 20.0;
+        }
+        for (int i = 0; i < N; i++) {
+            valid[i] = (double)(i % 2);
+            failed[i] = (double)(i % 16);
+        }
+        vg_metrics_compute_run(N, &run[0], heavy ? &run[1] : NULL, extra ? valid : NULL,
+                               extra ? failed : NULL, extra ? &req : &none, out);
+        for (int i = 0; i < N; i++) {
+            vg_rates r[2];
+            for (int k = 0; k < 2; k++) {
+                memset(&r[k], 0, sizeof r[k]);
+                r[k].ln_k_elastic = arr[k][0][i];
+                r[k].ln_k_assisted = arr[k][1][i];
+                r[k].ln_k_total = arr[k][2][i];
+                r[k].ln_k_bare = arr[k][3][i];
+                r[k].ln_fc_elastic = arr[k][4][i];
+                r[k].ln_fc_assisted = arr[k][5][i];
+                r[k].ln_fc_total = arr[k][6][i];
+                r[k].ln_fc_bare = arr[k][7][i];
+                r[k].assisted_fraction = arr[k][8][i];
+                r[k].assisted_zero = sz;
+                r[k].coupling_zero = vz;
+            }
+            vg_metrics_compute_full(&r[0], heavy ? &r[1] : NULL, NULL,
+                                    extra ? valid[i] : VG_FILL, extra ? failed[i] : VG_FILL,
+                                    extra ? &req : &none, ref);
+            assert_memory_equal(ref, out + i * VG_N_METRICS, sizeof ref);
+        }
+    }
+}
+
 static void test_batch(void **state)
 {
     const double gap[] = {-385.0, 230.0, 1238.5}, lam[] = {123.85, 30.0, 238.5};
@@ -796,6 +960,9 @@ int main(void)
         cmocka_unit_test(test_mode_init_errors),
         cmocka_unit_test(test_eval_errors),
         cmocka_unit_test(test_batch),
+        cmocka_unit_test(test_gap_runs_match_points),
+        cmocka_unit_test(test_gap_run_stops_at_bad_gap),
+        cmocka_unit_test(test_metrics_run_match_records),
     };
 
     gsl_set_error_handler_off();
