@@ -14,8 +14,9 @@
  *     point as a multiple of one exp(); also at every core with chunks of
  *     DIAG_CHUNK points, to show what the split of a chunk between threads
  *     costs;
- *   - the kernel alone (vg_rate_eval on the same points, one thread, no
- *     grid indexing, no metrics), in the same units;
+ *   - the kernel alone (vg_rate_eval_gaps_run on the same points row by row,
+ *     as the sweep calls it, one thread, no grid indexing, no metrics), in
+ *     the same units;
  *   - that 1 thread and every core give identical output (an order-sensitive
  *     checksum over the bits of every metric of a 10^6-point grid).
  * With --rss it instead sweeps one grid once at every core and reports the
@@ -63,7 +64,7 @@ static const char grid_format[] =
     "max_size = 1 TB\n";
 
 #define REPEAT 3
-/* Chunk of the scheduling diagnostic (the engine's default is 65536). */
+/* Chunk of the scheduling diagnostic (the engine's default is 16384). */
 #define DIAG_CHUNK ((size_t)4096)
 /* exp() ceiling: EXP_ARGS arguments spread over [-40, 0], the range the
  * kernel's terms take relative to the largest one, EXP_PASSES times. */
@@ -215,18 +216,25 @@ static int sweep_rates(const vg_grid *g, int nthreads, double rate[3])
     return 0;
 }
 
-/* Kernel alone: vg_rate_eval over every (gap, reorganization) of the grid
- * for each (huang_rhys, temperature), one thread, a weight table attached
- * as the sweep engine does.  Points per second, best of REPEAT; the results
- * go into *consumed. */
+/* Kernel alone: vg_rate_eval_gaps_run over every (gap) row of the grid for
+ * each (huang_rhys, temperature, reorganization), one thread, a weight
+ * table and a step cache attached as the sweep engine does them, no grid
+ * indexing, no metrics.  Points per second, best of REPEAT; the results go
+ * into *consumed. */
 static double kernel_rate(const vg_config *cfg, double *consumed)
 {
-    static double tab[KERNEL_TAB];
+    static double tab[KERNEL_TAB], q[KERNEL_TAB], qi[KERNEL_TAB], arr[9][1024];
     static unsigned char set[KERNEL_TAB];
+    static unsigned gen[KERNEL_TAB];
     const vg_param *p = cfg->param;
     size_t n = p[VG_P_GAP].n * p[VG_P_REORG].n * p[VG_P_HUANG_RHYS].n * p[VG_P_TEMPERATURE].n;
     double best = 0.0;
+    vg_rate_row row = {0};
+    vg_rates_run run = {arr[0], arr[1], arr[2], arr[3], arr[4], arr[5], arr[6], arr[7], arr[8],
+                        0, 0};
 
+    if (p[VG_P_GAP].n > 1024)
+        return -1.0;
     for (int r = 0; r < REPEAT; r++) {
         double t0 = now_seconds();
         for (size_t it = 0; it < p[VG_P_TEMPERATURE].n; it++)
@@ -237,15 +245,16 @@ static double kernel_rate(const vg_config *cfg, double *consumed)
                                       p[VG_P_TEMPERATURE].v[it], &err) != VG_OK)
                     return -1.0;
                 vg_rate_mode_attach_table(&m, -KERNEL_TAB / 2, KERNEL_TAB, tab, set);
-                for (size_t il = 0; il < p[VG_P_REORG].n; il++)
-                    for (size_t ig = 0; ig < p[VG_P_GAP].n; ig++) {
-                        vg_rates out;
-                        if (vg_rate_eval(&m, p[VG_P_GAP].v[ig], p[VG_P_REORG].v[il],
-                                         p[VG_P_COUPLING].v[0], cfg->tolerance, &out,
-                                         &err) != VG_OK)
-                            return -1.0;
-                        *consumed += out.ln_k_total;
-                    }
+                vg_rate_row_attach(&row, -KERNEL_TAB / 2, KERNEL_TAB, q, qi, gen);
+                for (size_t il = 0; il < p[VG_P_REORG].n; il++) {
+                    size_t done;
+                    if (vg_rate_row_begin(&row, &m, p[VG_P_REORG].v[il], p[VG_P_COUPLING].v[0],
+                                          &err) != VG_OK
+                        || vg_rate_eval_gaps_run(&m, &row, p[VG_P_GAP].n, p[VG_P_GAP].v,
+                                                 cfg->tolerance, &run, &done, &err) != VG_OK)
+                        return -1.0;
+                    *consumed += arr[2][p[VG_P_GAP].n / 2];
+                }
             }
         best = fmax(best, (double)n / (now_seconds() - t0));
     }
