@@ -103,9 +103,13 @@ void vg_metrics_compute_full(const vg_rates *light, const vg_rates *heavy,
 /* vg_metrics_compute_full for n points of one run (element i of each array
  * of light, heavy, valid and failed belongs to point i; heavy, valid and
  * failed may be NULL): out holds n * VG_N_METRICS values, point by point.
- * The same bits as n calls with the points' records. */
+ * The same bits as n calls with the points' records.  fill_kept 1 promises
+ * that out already holds VG_FILL in every metric after
+ * VG_M_LOG10_CONTRAST; where heavy, valid, failed and conditions are all
+ * absent those are fill anyway and are then not written again (the sweep
+ * fills its chunk buffer once; storing them cost a fifth of a sweep). */
 void vg_metrics_compute_run(size_t n, const vg_rates_run *light, const vg_rates_run *heavy,
                             const double *valid, const double *failed,
-                            const vg_require_set *req, double *out);
+                            const vg_require_set *req, int fill_kept, double *out);
 
 #endif

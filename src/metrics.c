@@ -196,7 +196,7 @@ void vg_metrics_compute(const vg_rates *light, const vg_rates *heavy,
 
 void vg_metrics_compute_run(size_t n, const vg_rates_run *light, const vg_rates_run *heavy,
                             const double *valid, const double *failed,
-                            const vg_require_set *req, double *out)
+                            const vg_require_set *req, int fill_kept, double *out)
 {
     if (!light->coupling_zero && !light->assisted_zero && !heavy && !valid && !failed
         && !(req && req->n > 0)) {
@@ -217,7 +217,7 @@ void vg_metrics_compute_run(size_t n, const vg_rates_run *light, const vg_rates_
             memcpy(out + 2, &b, sizeof b);
             memcpy(out + 4, &c, sizeof c);
             out[VG_M_LOG10_CONTRAST] = (light->ln_fc_total[i] - light->ln_fc_bare[i]) * VG_LOG10E;
-            for (int k = 7; k < VG_N_METRICS - 1; k += 2) /* every other metric is fill here */
+            for (int k = 7; !fill_kept && k < VG_N_METRICS - 1; k += 2) /* the rest: fill */
                 memcpy(out + k, &fill, sizeof fill);
         }
         return;

@@ -331,7 +331,7 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
         }
         vg_metrics_compute_run(good, &run[0], niso > 1 ? &run[1] : NULL,
                                checks ? valid[0] : NULL, checks ? valid[1] : NULL,
-                               &cfg->feasibility, out);
+                               &cfg->feasibility, 1, out);
         out += good * VG_N_METRICS;
         if (good < m) { /* the sweep stops at this chunk: fill the rest */
             for (size_t j = j0 + good; j < n; j++, out += VG_N_METRICS)
@@ -793,6 +793,12 @@ vg_status vg_sweep_run(const vg_grid *g, const vg_sweep_opts *opts,
         st = vg_error_set(err, VG_ENOMEM, "out of memory for %d sweep workspaces", nthreads);
         goto out_free;
     }
+    /* every metric starts as fill: a single-mode sweep without isotope,
+     * conditions or criteria leaves those columns as they are
+     * (vg_metrics_compute_run's fill_kept), and every other path writes
+     * all of them */
+    for (size_t i = 0; i < chunk * VG_N_METRICS; i++)
+        metrics[i] = VG_FILL;
     st = vg_config_mapped(g->cfg) ? odor_alloc(ws, nthreads, g, err) : VG_OK;
     if (st == VG_OK)
         st = run_chunks(g, opts, ws, nthreads, metrics, chunk, sink, ctx, err);

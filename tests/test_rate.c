@@ -856,7 +856,8 @@ static void test_gap_run_stops_at_bad_gap(void **state)
 
 /* vg_metrics_compute_run gives, point for point, the bits of
  * vg_metrics_compute_full on the points' records: the usual case and every
- * other (V = 0, S = 0, the heavy track, validity values, conditions). */
+ * other (V = 0, S = 0, the heavy track, validity values, conditions), with
+ * the fill columns written or kept. */
 static void test_metrics_run_match_records(void **state)
 {
     enum { N = 37 };
@@ -874,9 +875,10 @@ static void test_metrics_run_match_records(void **state)
     req.r[1].metric = VG_M_LOG10_K_TOTAL;
     req.r[1].op = VG_CMP_GE;
     req.r[1].value = 0.0;
-    for (int variant = 0; variant < 16; variant++) {
+    for (int variant = 0; variant < 32; variant++) {
         int vz = variant & 1, sz = (variant >> 1) & 1, heavy = (variant >> 2) & 1;
         int extra = (variant >> 3) & 1; /* validity values and conditions */
+        int kept = (variant >> 4) & 1;
         vg_rates_run run[2];
         for (int k = 0; k < 2; k++) {
             run[k] = (vg_rates_run){arr[k][0], arr[k][1], arr[k][2], arr[k][3], arr[k][4],
@@ -889,8 +891,12 @@ static void test_metrics_run_match_records(void **state)
             valid[i] = (double)(i % 2);
             failed[i] = (double)(i % 16);
         }
+        /* kept: the buffer starts as fill, as the sweep's does, and the
+         * usual case may leave the fill columns; else it starts as garbage */
+        for (int i = 0; i < N * VG_N_METRICS; i++)
+            out[i] = kept ? VG_FILL : 1e300;
         vg_metrics_compute_run(N, &run[0], heavy ? &run[1] : NULL, extra ? valid : NULL,
-                               extra ? failed : NULL, extra ? &req : &none, out);
+                               extra ? failed : NULL, extra ? &req : &none, kept, out);
         for (int i = 0; i < N; i++) {
             vg_rates r[2];
             for (int k = 0; k < 2; k++) {
