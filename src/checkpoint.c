@@ -23,7 +23,7 @@
 /* First line of the state file, "KEY LAYOUT"; the layout number changes
  * with the layout of either file. */
 #define STATE_KEY "vibrogate_checkpoint"
-#define STATE_LAYOUT "1"
+#define STATE_LAYOUT "2" /* 2: the metrics digest over 64-bit words */
 #define STATE_NAME "state"
 #define STATE_TMP_NAME "state.tmp"
 /* Every writer's temporary file starts so (src/output.c); a name that does
@@ -58,6 +58,18 @@ uint64_t vg_ckpt_fnv1a(uint64_t h, const void *data, size_t len)
 
     for (size_t i = 0; i < len; i++) {
         h ^= p[i];
+        h *= VG_CKPT_FNV_PRIME;
+    }
+    return h;
+}
+
+uint64_t vg_ckpt_fnv1a_words(uint64_t h, const unsigned char *data, size_t len)
+{
+    for (size_t i = 0; i + 8 <= len; i += 8) {
+        uint64_t w = 0;
+        for (int b = 8; b-- > 0;)
+            w = w << 8 | data[i + (size_t)b];
+        h ^= w;
         h *= VG_CKPT_FNV_PRIME;
     }
     return h;
@@ -500,6 +512,10 @@ static int reserve(vg_ckpt *ck, size_t n)
 
 static void encode(unsigned char *out, const double *x, size_t n)
 {
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    memcpy(out, x, n * sizeof *x); /* the bytes already are in file order */
+    return;
+#endif
     for (size_t i = 0; i < n; i++) {
         uint64_t u;
         memcpy(&u, &x[i], sizeof u);
@@ -510,6 +526,10 @@ static void encode(unsigned char *out, const double *x, size_t n)
 
 static void decode(double *x, const unsigned char *in, size_t n)
 {
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    memcpy(x, in, n * sizeof *x);
+    return;
+#endif
     for (size_t i = 0; i < n; i++) {
         uint64_t u = 0;
         for (int b = 8; b-- > 0;)
@@ -529,7 +549,7 @@ static vg_status metrics_digest(vg_ckpt *ck, uint64_t len, uint64_t *h, vg_error
     while (e == 0 && at < len) {
         size_t n = len - at < VERIFY_BLOCK ? (size_t)(len - at) : VERIFY_BLOCK;
         e = pread_all(ck->fd, blk, n, (off_t)at);
-        *h = vg_ckpt_fnv1a(*h, blk, n);
+        *h = vg_ckpt_fnv1a_words(*h, blk, n);
         at += n;
     }
     free(blk);
@@ -899,7 +919,7 @@ vg_status vg_ckpt_append(void *ctx, size_t start, size_t count, const double *me
         return io_fail("write", ck->metrics_path, e, err);
     next.done += count;
     next.metrics_bytes += bytes;
-    next.metrics_fnv = vg_ckpt_fnv1a(next.metrics_fnv, ck->buf, (size_t)bytes);
+    next.metrics_fnv = vg_ckpt_fnv1a_words(next.metrics_fnv, ck->buf, (size_t)bytes);
     vg_status st = write_state(ck, &next, err);
     if (st == VG_OK)
         ck->st = next; /* the strings are shared, not copied */
@@ -954,7 +974,7 @@ vg_status vg_ckpt_replay(vg_ckpt *ck, size_t chunk, volatile sig_atomic_t *stop,
         int e = pread_all(ck->fd, ck->buf, bytes, (off_t)(start * VG_CKPT_POINT_BYTES));
         if (e != 0)
             return io_fail("read", ck->metrics_path, e, err);
-        h = vg_ckpt_fnv1a(h, ck->buf, bytes);
+        h = vg_ckpt_fnv1a_words(h, ck->buf, bytes);
         decode(ck->vals, ck->buf, count * VG_N_METRICS);
         vg_status st = sink(ctx, start, count, ck->vals, err);
         if (st != VG_OK)

@@ -43,6 +43,14 @@
 #define VG_CKPT_FNV_PRIME UINT64_C(0x100000001b3)
 uint64_t vg_ckpt_fnv1a(uint64_t h, const void *data, size_t len);
 
+/* The same step applied to 64-bit words instead of bytes: each 8 bytes of
+ * data, read as a little-endian integer w, fold in as h = (h ^ w) * prime
+ * (len a multiple of 8; a shorter tail is ignored).  Eight times fewer
+ * multiplications than vg_ckpt_fnv1a, for the metrics file, whose length is
+ * always a multiple of 8; a project variant of FNV-1a, not the published
+ * function. */
+uint64_t vg_ckpt_fnv1a_words(uint64_t h, const unsigned char *data, size_t len);
+
 /* Everything that determines a sweep's output besides the history line and
  * the config's path, which the checkpoint stores and a resumed run reuses. */
 typedef struct {
@@ -76,7 +84,7 @@ typedef struct {
     size_t chunk;            /* points per chunk */
     size_t done;             /* points 0 .. done-1 are in the metrics file */
     uint64_t metrics_bytes;  /* its valid length, done * VG_CKPT_POINT_BYTES */
-    uint64_t metrics_fnv;    /* FNV-1a of those bytes */
+    uint64_t metrics_fnv;    /* vg_ckpt_fnv1a_words of those bytes */
     char *config_path;       /* config path of the run that started it (owned) */
     char *history;           /* its history line (owned) */
     char *temps;             /* writers' temporary files in the output
