@@ -50,6 +50,7 @@ printf '  %-40s %12.1f x  (1 thread: %.1f x)\n' "ratio tool / NumPy, $n threads"
 printf '  %-40s %12.4g calls/s  (%.2f ns each)\n' "exp() ceiling, 1 thread" \
     "$(val exp_per_s "$T/tool")" "$(calc "1e9 / $(val exp_per_s "$T/tool")")"
 printf '  %-40s %12.3f\n' "exp() loop speedup on $n threads" "$(val exp_speedup_n "$T/tool")"
+printf '  %-40s %12.3f\n' "multiply-add loop speedup on $n threads" "$(val madd_speedup_n "$T/tool")"
 printf '  %-40s %12.1f  (kernel alone: %.1f)\n' "cost of a point, in exp() calls" \
     "$(val sweep_exp_per_point "$T/tool")" "$(val kernel_exp_per_point "$T/tool")"
 printf '  %-40s %9s KiB for %s points, %s KiB for %s\n' "peak RSS, $n threads" \

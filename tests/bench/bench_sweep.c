@@ -6,7 +6,8 @@
  * In one process it measures:
  *   - the machine ceiling: exp() calls per second on this CPU, over varied
  *     arguments whose results are all consumed, on one thread and on every
- *     core at once (what the machine itself gives from more threads);
+ *     core at once (what the machine itself gives from more threads), and
+ *     the same for a throughput-bound loop of independent multiply-adds;
  *   - the sweep of a 4-D single-mode thermal grid (gap x reorganization x
  *     huang_rhys x temperature, 10^7 points, invented but plausible receptor
  *     ranges) through vg_sweep_run with a sink that discards the metrics, at
@@ -150,6 +151,36 @@ static double exp_rate(int nthreads, double *consumed)
     acc += exp_loop();
     *consumed += acc;
     return (double)nthreads * EXP_ARGS * EXP_PASSES / (now_seconds() - t0);
+}
+
+/* Multiply-adds a second: MADD_CHAINS independent chains (so the loop is
+ * bound by the core's throughput, as the kernel's lanes are, where the exp()
+ * loop's single sum is bound by latency), MADD_PASSES steps each, all
+ * nthreads threads at once.  On a machine whose two cores share one
+ * physical core's execution units the throughput-bound loop gains less from
+ * the second thread than the latency-bound one.  The result goes into
+ * *consumed. */
+#define MADD_CHAINS 8
+#define MADD_PASSES 50000000L
+static double madd_rate(int nthreads, double *consumed)
+{
+    double acc = 0.0, t0 = now_seconds();
+
+#ifdef _OPENMP
+#pragma omp parallel num_threads(nthreads) reduction(+ : acc)
+#endif
+    {
+        double a[MADD_CHAINS];
+        for (int c = 0; c < MADD_CHAINS; c++)
+            a[c] = 1.0 + 1e-3 * c;
+        for (long i = 0; i < MADD_PASSES; i++)
+            for (int c = 0; c < MADD_CHAINS; c++)
+                a[c] = a[c] * 0.999999999 + 1e-9;
+        for (int c = 0; c < MADD_CHAINS; c++)
+            acc += a[c];
+    }
+    *consumed += acc;
+    return (double)nthreads * MADD_CHAINS * MADD_PASSES / (now_seconds() - t0);
 }
 
 static int load_grid(vg_config *cfg, vg_grid *g, size_t n_s)
@@ -332,7 +363,7 @@ int main(int argc, char **argv)
     size_t n_s = argc > 1 + rss ? (size_t)strtoul(argv[1 + rss], NULL, 10) : 20;
     vg_sweep_opts all = {0};
     int nthreads = vg_sweep_threads(&all);
-    double consumed = 0.0, exp_per_s = 0.0, exp_per_s_n = 0.0;
+    double consumed = 0.0, exp_per_s = 0.0, exp_per_s_n = 0.0, madd_1 = 0.0, madd_n = 0.0;
 
     gsl_set_error_handler_off();
     if (n_s < 2) {
@@ -344,10 +375,13 @@ int main(int argc, char **argv)
     for (int r = 0; r < REPEAT; r++) {
         exp_per_s = fmax(exp_per_s, exp_rate(1, &consumed));
         exp_per_s_n = fmax(exp_per_s_n, exp_rate(nthreads, &consumed));
+        madd_1 = fmax(madd_1, madd_rate(1, &consumed));
+        madd_n = fmax(madd_n, madd_rate(nthreads, &consumed));
     }
     printf("threads %d\n", nthreads);
     printf("exp_per_s %.6g\n", exp_per_s);
     printf("exp_speedup_n %.4f\n", exp_per_s_n / exp_per_s);
+    printf("madd_speedup_n %.4f\n", madd_n / madd_1);
     if (small_grid(n_s / 10 > 2 ? n_s / 10 : 2, nthreads, exp_per_s, &consumed) != 0
         || full_grid(n_s, nthreads, exp_per_s) != 0)
         return 1;
