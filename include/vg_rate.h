@@ -175,6 +175,9 @@ typedef struct {
     int assisted_zero, coupling_zero;
 } vg_rates_run;
 
+/* Point i of a run as a record (the channel window fields 0). */
+void vg_rates_run_get(const vg_rates_run *r, size_t i, vg_rates *out);
+
 /* vg_rate_eval_gaps into arrays (every array holds n elements): the same
  * bits in every field, without the channel window fields. */
 vg_status vg_rate_eval_gaps_run(vg_rate_mode *m, vg_rate_row *row, size_t n,

@@ -646,14 +646,13 @@ static int rates_valid(const vg_rates *r, int coupling_zero, int assisted_zero)
  * so each is at most 1 and their relative error grows by about two ulps a
  * step.
  *
- * LANES (eight) gaps of a row are taken together as the lanes of GCC vector
- * types.
- * Every operation is lane-wise and exp and log of the lanes are our own, so
- * a lane's bits do not depend on the other lanes: a single point is the same
- * code with its gap in every lane, and vg_rate_eval, vg_rate_eval_row and
- * vg_rate_eval_gaps agree bit for bit.  Lanes go together only when each
- * would take the same peak walk alone (same start, same steps) and so the
- * same window; otherwise each lane is taken alone.
+ * LANES (four) gaps of a row are taken together as the lanes of GCC vector
+ * types.  Every operation is lane-wise and exp and log of the lanes are our
+ * own, so a lane's bits do not depend on the other lanes: a single point is
+ * the same code with its gap in every lane, and vg_rate_eval,
+ * vg_rate_eval_row and vg_rate_eval_gaps agree bit for bit.  Lanes go
+ * together only when each would walk to the same peak alone (lanes_reach)
+ * and so take the same window; otherwise each lane is taken alone.
  *
  * The path declines a point (the log path above takes it) when a factor
  * leaves [e^-LIN_LIMIT, e^LIN_LIMIT] (so that no product can overflow), when
@@ -674,12 +673,12 @@ typedef double vd __attribute__((vector_size(8 * LANES)));
 typedef long long vi __attribute__((vector_size(8 * LANES)));
 typedef unsigned long long vu __attribute__((vector_size(8 * LANES)));
 
-/* The lanes' code is built three times, for AVX-512, AVX2 and baseline
- * x86-64, and the one the CPU supports is chosen when the program starts.
- * Every build runs
- * the same IEEE operations in the same order (no fused multiply-add: the
- * Makefile passes -ffp-contract=off), so they give the same bits; a test
- * compares a build with the baseline version only against the usual one. */
+/* The lanes' code is built twice, for AVX2 and for baseline x86-64, and the
+ * one the CPU supports is chosen when the program starts.  Both run the same
+ * IEEE operations in the same order (no fused multiply-add: the Makefile
+ * passes -ffp-contract=off), so they give the same bits;
+ * tests/scripts/lanes.sh compares the baseline-only build (make BASELINE=1)
+ * with the usual one. */
 #if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__) && !defined(VG_NO_CLONES)
 #define VG_LANES_CLONES __attribute__((target_clones("avx2", "default")))
 #else
@@ -737,7 +736,7 @@ static inline __attribute__((always_inline)) int all_lanes(vi mask)
 /* e^x lane by lane for |x| <= 708 (the callers keep to that): x = k ln2 + r
  * with |r| <= ln2/2, e^r by its Taylor polynomial to r^13 (the first term
  * left out is below 2^-57), evaluated by Estrin's scheme, and 2^k formed in
- * the exponent bits.  A few ulps. */
+ * the exponent bits.  Within 3 ulps (tests/test_lanes.c). */
 static inline __attribute__((always_inline)) vd vexp(vd x)
 {
     const vd shift = vsplat(0x1.8p52);
@@ -789,7 +788,7 @@ static inline __attribute__((always_inline)) vd vlog_split(vd y, vd *e)
 /* ln y lane by lane for normal y > 0: y = 2^e m, ln m = 2 atanh f with
  * f = (m - 1) / (m + 1), |f| <= 0.172, by its series to f^21 (the first
  * term left out is below 2^-60 of the sum), evaluated by Estrin's scheme in
- * s = f^2; e ln 2 in two parts.  A few ulps. */
+ * s = f^2; e ln 2 in two parts.  Within 6 ulps (tests/test_lanes.c). */
 static inline __attribute__((always_inline)) vd vlog(vd y)
 {
     vd e, m = vlog_split(y, &e);
@@ -1032,7 +1031,7 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
     long nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
     vd inv4lkt = vsplat(row->inv4lkt), lim = vsplat(LIN_LIMIT), one = vsplat(1.0);
     vd A[GROUPS], Ai[GROUPS], up[GROUPS], dn[GROUPS], ap[GROUPS], d[GROUPS];
-    long gmin[GROUPS], gmax[GROUPS];
+    long g0[GROUPS], gmin[GROUPS], gmax[GROUPS]; /* walk starts: lane 0's, the lanes' range */
     double lw0 = ln_w(m, 0);
     int k;
 
@@ -1079,7 +1078,7 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
             gmin[j] = i == 0 || gi < gmin[j] ? gi : gmin[j];
             gmax[j] = i == 0 || gi > gmax[j] ? gi : gmax[j];
             if (i == 0)
-                o[j].p = gi; /* lane 0's start, until the peak is known */
+                g0[j] = gi;
         }
         mask[j] = LANES_PENDING;
     }
@@ -1096,7 +1095,7 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
          * walk (for a point alone, the walk is the definition) */
         if (single || !row->p_set
             || !lanes_reach(m, row, nmin, row->p_prev, gmin[j], gmax[j], &A[j])) {
-            if (!lin_peak(m, row, nmin, o[j].p, A[j][0], &p)) {
+            if (!lin_peak(m, row, nmin, g0[j], A[j][0], &p)) {
                 mask[j] = single ? ALL_LANES : LANES_ALONE;
                 continue;
             }
@@ -1154,8 +1153,6 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
             o[j].total = ap[j] + vlog(dn[j]);
             o[j].fraction = up[j] / dn[j];
             mask[j] = lane_bits(small);
-        } else if (mask[j] != 0) {
-            o[j].p = 0;
         }
         if (row->coupling == 0.0) {
             o[j].k_bare = o[j].k_elastic = o[j].k_assisted = o[j].k_total = vsplat(-HUGE_VAL);
@@ -1226,6 +1223,22 @@ static vg_status lane_rest(vg_rate_mode *m, const vg_rate_row *row, double gap, 
     return VG_OK;
 }
 
+void vg_rates_run_get(const vg_rates_run *r, size_t i, vg_rates *x)
+{
+    memset(x, 0, sizeof *x);
+    x->ln_k_elastic = r->ln_k_elastic[i];
+    x->ln_k_assisted = r->ln_k_assisted[i];
+    x->ln_k_total = r->ln_k_total[i];
+    x->ln_k_bare = r->ln_k_bare[i];
+    x->ln_fc_elastic = r->ln_fc_elastic[i];
+    x->ln_fc_assisted = r->ln_fc_assisted[i];
+    x->ln_fc_total = r->ln_fc_total[i];
+    x->ln_fc_bare = r->ln_fc_bare[i];
+    x->assisted_fraction = r->assisted_fraction[i];
+    x->assisted_zero = r->assisted_zero;
+    x->coupling_zero = r->coupling_zero;
+}
+
 /* Point i (in its run) of a record into the arrays. */
 static void run_put(vg_rates_run *r, size_t i, const vg_rates *x)
 {
@@ -1255,16 +1268,10 @@ static inline void run_lanes(vg_rates_run *r, size_t i0, const lanes_out *o, int
         memcpy(r->assisted_fraction + i0, &o->fraction, sizeof(vd));
         return;
     }
-    for (int l = 0; l < nl; l++) {
-        r->ln_k_elastic[i0 + (size_t)l] = o->k_elastic[l];
-        r->ln_k_assisted[i0 + (size_t)l] = o->k_assisted[l];
-        r->ln_k_total[i0 + (size_t)l] = o->k_total[l];
-        r->ln_k_bare[i0 + (size_t)l] = o->k_bare[l];
-        r->ln_fc_elastic[i0 + (size_t)l] = o->elastic[l];
-        r->ln_fc_assisted[i0 + (size_t)l] = o->assisted[l];
-        r->ln_fc_total[i0 + (size_t)l] = o->total[l];
-        r->ln_fc_bare[i0 + (size_t)l] = o->bare[l];
-        r->assisted_fraction[i0 + (size_t)l] = o->fraction[l];
+    for (int l = 0; l < nl; l++) { /* the last group of a run: lane by lane */
+        vg_rates rec;
+        lane_store(o, l, r->coupling_zero, r->assisted_zero, &rec);
+        run_put(r, i0 + (size_t)l, &rec);
     }
 }
 
@@ -1289,7 +1296,7 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
             continue;
         }
         for (int l = 0; l < nj; l++) {
-            int i = j * LANES + l, rest;
+            int i = j * LANES + l, log_path, finite;
             vg_rates rec, *r = run ? &rec : &out[i];
             if (mask[j] == LANES_ALONE) { /* its gap in every lane */
                 double gi[LANES];
@@ -1297,13 +1304,15 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
                     gi[l2] = g[i];
                 win_run(m, row, 1, gi, tol, &oi, &mi, &oki);
                 lane_store(&oi, 0, cz, az, r);
-                rest = (mi & 1) ? 1 : oki[0] == 0 ? 2 : 0;
+                log_path = mi & 1;
+                finite = oki[0] != 0;
             } else {
                 lane_store(&o[j], l, cz, az, r);
-                rest = ((mask[j] >> l) & 1) ? 1 : ok[j][l] == 0 ? 2 : 0;
+                log_path = (mask[j] >> l) & 1;
+                finite = ok[j][l] != 0;
             }
-            if (rest != 0) {
-                vg_status st = lane_rest(m, row, g[i], tol, rest == 1, r, err);
+            if (log_path || !finite) {
+                vg_status st = lane_rest(m, row, g[i], tol, log_path, r, err);
                 if (st != VG_OK) {
                     *done = (size_t)i;
                     return st;

@@ -238,26 +238,6 @@ static void run_arrays(vg_rates_run *r, double a[9][RUN])
     r->assisted_fraction = a[8];
 }
 
-/* Point j of a run as a record (for the validity criteria). */
-static vg_rates run_record(const vg_rates_run *r, size_t j)
-{
-    vg_rates x;
-
-    memset(&x, 0, sizeof x);
-    x.ln_k_elastic = r->ln_k_elastic[j];
-    x.ln_k_assisted = r->ln_k_assisted[j];
-    x.ln_k_total = r->ln_k_total[j];
-    x.ln_k_bare = r->ln_k_bare[j];
-    x.ln_fc_elastic = r->ln_fc_elastic[j];
-    x.ln_fc_assisted = r->ln_fc_assisted[j];
-    x.ln_fc_total = r->ln_fc_total[j];
-    x.ln_fc_bare = r->ln_fc_bare[j];
-    x.assisted_fraction = r->assisted_fraction[j];
-    x.assisted_zero = r->assisted_zero;
-    x.coupling_zero = r->coupling_zero;
-    return x;
-}
-
 /* A segment of points that differ only in gap (consecutive along the gap
  * axis, or one point when gap is not the fastest axis): the weights' record
  * when the (S, mode, T) triple changes, the row's when (V, lambda) change
@@ -318,10 +298,12 @@ static void segment(worker *w, const vg_grid *g, const reach *r, const size_t id
             }
         }
         for (size_t j = 0; checks && j < good; j++) { /* a failure here comes first */
-            vg_rates rec = run_record(&run[0], j);
+            vg_rates rec;
             double v[2];
-            vg_status sj = point_valid(cfg, idx, cfg->param[VG_P_MODE].v[idx[VG_P_MODE]],
-                                       cfg->validity.t1_ps, &rec, v, &w->err);
+            vg_status sj;
+            vg_rates_run_get(&run[0], j, &rec);
+            sj = point_valid(cfg, idx, cfg->param[VG_P_MODE].v[idx[VG_P_MODE]],
+                             cfg->validity.t1_ps, &rec, v, &w->err);
             valid[0][j] = v[0];
             valid[1][j] = v[1];
             if (sj != VG_OK) {

@@ -900,18 +900,10 @@ static void test_metrics_run_match_records(void **state)
         for (int i = 0; i < N; i++) {
             vg_rates r[2];
             for (int k = 0; k < 2; k++) {
-                memset(&r[k], 0, sizeof r[k]);
-                r[k].ln_k_elastic = arr[k][0][i];
-                r[k].ln_k_assisted = arr[k][1][i];
-                r[k].ln_k_total = arr[k][2][i];
-                r[k].ln_k_bare = arr[k][3][i];
-                r[k].ln_fc_elastic = arr[k][4][i];
-                r[k].ln_fc_assisted = arr[k][5][i];
-                r[k].ln_fc_total = arr[k][6][i];
-                r[k].ln_fc_bare = arr[k][7][i];
-                r[k].assisted_fraction = arr[k][8][i];
-                r[k].assisted_zero = sz;
-                r[k].coupling_zero = vz;
+                vg_rates_run_get(&run[k], (size_t)i, &r[k]);
+                assert_true(r[k].ln_fc_total == arr[k][6][i] && r[k].assisted_fraction
+                            == arr[k][8][i] && r[k].assisted_zero == sz
+                            && r[k].coupling_zero == vz);
             }
             vg_metrics_compute_full(&r[0], heavy ? &r[1] : NULL, NULL,
                                     extra ? valid[i] : VG_FILL, extra ? failed[i] : VG_FILL,
