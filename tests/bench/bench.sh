@@ -39,20 +39,26 @@ printf '  one 1600 cm-1 mode, thermal), %s cores, %s\n' "$(nproc)" \
     "$(sed -n 's/^model name[[:space:]]*: //p' /proc/cpuinfo | head -n 1)"
 printf '  %-40s %12.4g points/s\n' "tool, 1 thread" "$r1"
 printf '  %-40s %12.4g points/s\n' "tool, $n threads" "$rn"
-printf '  %-40s %12.3f  (speedup %.3f on %s threads)\n' "parallel efficiency" \
-    "$(val efficiency "$T/tool")" "$(val speedup "$T/tool")" "$n"
+printf '  %-40s %12.3f  (speedup %.3f on %s threads, runs %.3f to %.3f)\n' "parallel efficiency" \
+    "$(calc "$(val speedup "$T/tool") / $n")" "$(val speedup "$T/tool")" "$n" \
+    "$(val speedup_lo "$T/tool")" "$(val speedup_hi "$T/tool")"
 printf '  %-40s %12.4g points/s  (speedup %.3f)\n' "tool, $n threads, chunks of 4096 points" \
     "$(val pts_per_s_n_chunk "$T/tool")" "$(val speedup_chunk "$T/tool")"
 printf '  %-40s %12.4g points/s  (%s points timed)\n' "NumPy script, 1 process" "$np" \
     "$(val numpy_points "$T/numpy")"
 printf '  %-40s %12.1f x  (1 thread: %.1f x)\n' "ratio tool / NumPy, $n threads" \
     "$(calc "$rn / $np")" "$(calc "$r1 / $np")"
-printf '  %-40s %12.4g calls/s  (%.2f ns each)\n' "exp() ceiling, 1 thread" \
-    "$(val exp_per_s "$T/tool")" "$(calc "1e9 / $(val exp_per_s "$T/tool")")"
+printf '  %-40s %12.4g calls/s  (%.2f ns each; slices %.2f to %.2f ns)\n' "exp() ceiling, 1 thread" \
+    "$(val exp_per_s "$T/tool")" "$(calc "1e9 / $(val exp_per_s "$T/tool")")" \
+    "$(calc "1e9 / $(val exp_per_s_hi "$T/tool")")" "$(calc "1e9 / $(val exp_per_s_lo "$T/tool")")"
 printf '  %-40s %12.3f\n' "exp() loop speedup on $n threads" "$(val exp_speedup_n "$T/tool")"
 printf '  %-40s %12.3f\n' "multiply-add loop speedup on $n threads" "$(val madd_speedup_n "$T/tool")"
-printf '  %-40s %12.1f  (kernel alone: %.1f)\n' "cost of a point, in exp() calls" \
-    "$(val sweep_exp_per_point "$T/tool")" "$(val kernel_exp_per_point "$T/tool")"
+printf '  %-40s %12.2f  (runs %.2f to %.2f)\n' "cost of a kernel point, in exp() calls" \
+    "$(val kernel_exp_per_point "$T/tool")" "$(val kernel_exp_per_point_lo "$T/tool")" \
+    "$(val kernel_exp_per_point_hi "$T/tool")"
+printf '  %-40s %12.2f  (runs %.2f to %.2f)\n' "cost of a sweep point, in exp() calls" \
+    "$(val sweep_exp_per_point "$T/tool")" "$(val sweep_exp_per_point_lo "$T/tool")" \
+    "$(val sweep_exp_per_point_hi "$T/tool")"
 printf '  %-40s %9s KiB for %s points, %s KiB for %s\n' "peak RSS, $n threads" \
     "$(val rss_peak_kib "$T/rss-small")" "$(val rss_points "$T/rss-small")" \
     "$(val rss_peak_kib "$T/rss-full")" "$(val rss_points "$T/rss-full")"

@@ -24,8 +24,13 @@
  * process's peak resident memory; bench.sh runs it on a 10^6- and a
  * 10^7-point grid, each in a fresh process: the engine keeps one chunk of
  * metrics at a time, so the peak must not grow with the grid.
- * Each timing is the best of REPEAT runs, 1 thread and all cores taken in
- * turn, so that a burst of other load on the machine spoils neither alone.
+ * The machine's speed moves within seconds (clock and neighbour load on a
+ * shared host), so no figure compares timings taken far apart: every timed
+ * run of the kernel and of the 1-thread sweep sits between two slices of
+ * the exp() loop and is costed against their mean, 1 thread and all cores
+ * run in turn and each speedup is of a run against the one beside it; each
+ * figure is the median over REPEAT such runs, with the least and greatest
+ * (key_lo, key_hi).  Points per second are the best run.
  *
  * Output: one "key value" pair a line, read by bench.sh.
  * Usage: bench_sweep [--rss] [HUANG_RHYS_VALUES]   (default 20: 10^7 points;
@@ -64,13 +69,14 @@ static const char grid_format[] =
     "data = netcdf\n"
     "max_size = 1 TB\n";
 
-#define REPEAT 3
+#define REPEAT 7
 /* Chunk of the scheduling diagnostic (the engine's default is 16384). */
 #define DIAG_CHUNK ((size_t)4096)
 /* exp() ceiling: EXP_ARGS arguments spread over [-40, 0], the range the
- * kernel's terms take relative to the largest one, EXP_PASSES times. */
+ * kernel's terms take relative to the largest one, EXP_PASSES times (about
+ * 50 ms on the 2-core machine of docs/performance.md). */
 #define EXP_ARGS 4096
-#define EXP_PASSES 20000
+#define EXP_PASSES 2000
 /* Weight-table size for the kernel-only loop (channels -TAB/2 .. TAB/2). */
 #define KERNEL_TAB 512
 
@@ -78,6 +84,21 @@ typedef struct {
     uint64_t hash; /* order-sensitive: FNV-1a over the metric bits */
     size_t points;
 } checksum;
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+
+    return (x > y) - (x < y);
+}
+
+/* "key median", "key_lo least" and "key_hi greatest" of v[0..n) (sorts v). */
+static void print_spread(const char *key, double *v, size_t n)
+{
+    qsort(v, n, sizeof *v, cmp_double);
+    printf("%s %.4g\n%s_lo %.4g\n%s_hi %.4g\n", key,
+           n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]), key, v[0], key, v[n - 1]);
+}
 
 static double now_seconds(void)
 {
@@ -229,52 +250,76 @@ static int check_identical(const vg_grid *g, int nthreads)
     return 0;
 }
 
-/* Points per second of the whole grid, best of REPEAT: [0] at 1 thread,
- * [1] at nthreads, [2] at nthreads with chunks of DIAG_CHUNK points. */
-static int sweep_rates(const vg_grid *g, int nthreads, double rate[3])
+/* Seconds a call of one exp() slice took (one thread). */
+static double exp_slice(double *consumed)
 {
-    const int threads[3] = {1, nthreads, nthreads};
-    const size_t chunk[3] = {0, 0, DIAG_CHUNK};
+    return 1.0 / exp_rate(1, consumed);
+}
 
-    rate[0] = rate[1] = rate[2] = 0.0;
-    for (int r = 0; r < REPEAT; r++)
-        for (int k = 0; k < 3; k++) {
-            double dt = timed_sweep(g, threads[k], chunk[k], sink_discard, NULL);
-            if (dt < 0.0)
-                return -1;
-            rate[k] = fmax(rate[k], (double)g->npoints / dt);
-        }
+/* The whole grid REPEAT times, each time an exp() slice, the sweep at 1
+ * thread, a slice, the sweep at nthreads and at nthreads with chunks of
+ * DIAG_CHUNK points.  Prints the best points per second of each, the cost
+ * of a 1-thread point in exp() calls against its two slices, and the
+ * speedups of the nthreads runs over the 1-thread run beside them. */
+static int sweep_rates(const vg_grid *g, int nthreads, double *consumed)
+{
+    double best[3] = {0.0, 0.0, 0.0}, cost[REPEAT], sp[REPEAT], spc[REPEAT];
+    double np = (double)g->npoints;
+
+    for (int r = 0; r < REPEAT; r++) {
+        double ea = exp_slice(consumed), t1, eb, tn, tc;
+        if ((t1 = timed_sweep(g, 1, 0, sink_discard, NULL)) < 0.0)
+            return -1;
+        eb = exp_slice(consumed);
+        if ((tn = timed_sweep(g, nthreads, 0, sink_discard, NULL)) < 0.0
+            || (tc = timed_sweep(g, nthreads, DIAG_CHUNK, sink_discard, NULL)) < 0.0)
+            return -1;
+        best[0] = fmax(best[0], np / t1);
+        best[1] = fmax(best[1], np / tn);
+        best[2] = fmax(best[2], np / tc);
+        cost[r] = (t1 / np) / (0.5 * (ea + eb));
+        sp[r] = t1 / tn;
+        spc[r] = t1 / tc;
+    }
+    printf("full_points %zu\n", g->npoints);
+    printf("pts_per_s_1 %.6g\n", best[0]);
+    printf("pts_per_s_n %.6g\n", best[1]);
+    printf("pts_per_s_n_chunk %.6g\n", best[2]);
+    print_spread("speedup", sp, REPEAT);
+    print_spread("speedup_chunk", spc, REPEAT);
+    print_spread("sweep_exp_per_point", cost, REPEAT);
     return 0;
 }
 
 /* Kernel alone: vg_rate_eval_gaps_run over every (gap) row of the grid for
  * each (huang_rhys, temperature, reorganization), one thread, a weight
  * table and a step cache attached as the sweep engine does them, no grid
- * indexing, no metrics.  Points per second, best of REPEAT; the results go
- * into *consumed. */
-static double kernel_rate(const vg_config *cfg, double *consumed)
+ * indexing, no metrics; REPEAT times, each between two exp() slices.
+ * Prints the best points per second and the cost of a point in exp()
+ * calls; the results go into *consumed. */
+static int kernel_rate(const vg_config *cfg, double *consumed)
 {
     static double tab[KERNEL_TAB], q[KERNEL_TAB], qi[KERNEL_TAB], arr[9][1024];
     static unsigned char set[KERNEL_TAB];
     static unsigned gen[KERNEL_TAB];
     const vg_param *p = cfg->param;
     size_t n = p[VG_P_GAP].n * p[VG_P_REORG].n * p[VG_P_HUANG_RHYS].n * p[VG_P_TEMPERATURE].n;
-    double best = 0.0;
+    double best = 0.0, cost[REPEAT];
     vg_rate_row row = {0};
     vg_rates_run run = {arr[0], arr[1], arr[2], arr[3], arr[4], arr[5], arr[6], arr[7], arr[8],
                         0, 0};
 
     if (p[VG_P_GAP].n > 1024)
-        return -1.0;
+        return -1;
     for (int r = 0; r < REPEAT; r++) {
-        double t0 = now_seconds();
+        double ea = exp_slice(consumed), t0 = now_seconds(), dt;
         for (size_t it = 0; it < p[VG_P_TEMPERATURE].n; it++)
             for (size_t is = 0; is < p[VG_P_HUANG_RHYS].n; is++) {
                 vg_rate_mode m;
                 vg_error err = {VG_OK, ""};
                 if (vg_rate_mode_init(&m, cfg->stats, p[VG_P_HUANG_RHYS].v[is], p[VG_P_MODE].v[0],
                                       p[VG_P_TEMPERATURE].v[it], &err) != VG_OK)
-                    return -1.0;
+                    return -1;
                 vg_rate_mode_attach_table(&m, -KERNEL_TAB / 2, KERNEL_TAB, tab, set);
                 vg_rate_row_attach(&row, -KERNEL_TAB / 2, KERNEL_TAB, q, qi, gen);
                 for (size_t il = 0; il < p[VG_P_REORG].n; il++) {
@@ -283,59 +328,48 @@ static double kernel_rate(const vg_config *cfg, double *consumed)
                                           &err) != VG_OK
                         || vg_rate_eval_gaps_run(&m, &row, p[VG_P_GAP].n, p[VG_P_GAP].v,
                                                  cfg->tolerance, &run, &done, &err) != VG_OK)
-                        return -1.0;
+                        return -1;
                     *consumed += arr[2][p[VG_P_GAP].n / 2];
                 }
             }
-        best = fmax(best, (double)n / (now_seconds() - t0));
+        dt = now_seconds() - t0;
+        best = fmax(best, (double)n / dt);
+        cost[r] = (dt / (double)n) / (0.5 * (ea + exp_slice(consumed)));
     }
-    return best;
+    printf("kernel_points %zu\n", n);
+    printf("kernel_pts_per_s %.6g\n", best);
+    print_spread("kernel_exp_per_point", cost, REPEAT);
+    return 0;
 }
 
-/* The 10^6-point grid: identity across thread counts, kernel alone, RSS. */
-static int small_grid(size_t n_s, int nthreads, double exp_per_s, double *consumed)
+/* The 10^6-point grid: identity across thread counts, kernel alone. */
+static int small_grid(size_t n_s, int nthreads, double *consumed)
 {
     vg_config cfg;
     vg_grid g;
-    double k;
     int st;
 
     if (load_grid(&cfg, &g, n_s) != 0)
         return -1;
     st = check_identical(&g, nthreads);
-    k = st == 0 ? kernel_rate(&cfg, consumed) : -1.0;
+    if (st == 0)
+        st = kernel_rate(&cfg, consumed);
     vg_config_free(&cfg);
-    if (k < 0.0)
-        return -1;
-    printf("kernel_points %zu\n", g.npoints);
-    printf("kernel_pts_per_s %.6g\n", k);
-    printf("kernel_exp_per_point %.3f\n", exp_per_s / k);
-    return 0;
+    return st;
 }
 
-/* The 10^7-point grid: throughput at 1 thread and every core, RSS. */
-static int full_grid(size_t n_s, int nthreads, double exp_per_s)
+/* The 10^7-point grid: throughput at 1 thread and every core. */
+static int full_grid(size_t n_s, int nthreads, double *consumed)
 {
     vg_config cfg;
     vg_grid g;
-    double rate[3];
     int st;
 
     if (load_grid(&cfg, &g, n_s) != 0)
         return -1;
-    st = sweep_rates(&g, nthreads, rate);
+    st = sweep_rates(&g, nthreads, consumed);
     vg_config_free(&cfg);
-    if (st != 0)
-        return -1;
-    printf("full_points %zu\n", g.npoints);
-    printf("pts_per_s_1 %.6g\n", rate[0]);
-    printf("pts_per_s_n %.6g\n", rate[1]);
-    printf("speedup %.4f\n", rate[1] / rate[0]);
-    printf("efficiency %.4f\n", rate[1] / rate[0] / nthreads);
-    printf("pts_per_s_n_chunk %.6g\n", rate[2]);
-    printf("speedup_chunk %.4f\n", rate[2] / rate[0]);
-    printf("sweep_exp_per_point %.3f\n", exp_per_s / rate[0]);
-    return 0;
+    return st;
 }
 
 /* --rss: one sweep at every core, then the peak resident set of this
@@ -363,7 +397,7 @@ int main(int argc, char **argv)
     size_t n_s = argc > 1 + rss ? (size_t)strtoul(argv[1 + rss], NULL, 10) : 20;
     vg_sweep_opts all = {0};
     int nthreads = vg_sweep_threads(&all);
-    double consumed = 0.0, exp_per_s = 0.0, exp_per_s_n = 0.0, madd_1 = 0.0, madd_n = 0.0;
+    double consumed = 0.0, e1[REPEAT], esp[REPEAT], msp[REPEAT];
 
     gsl_set_error_handler_off();
     if (n_s < 2) {
@@ -372,18 +406,18 @@ int main(int argc, char **argv)
     }
     if (rss)
         return rss_grid(n_s, nthreads) == 0 ? 0 : 1;
-    for (int r = 0; r < REPEAT; r++) {
-        exp_per_s = fmax(exp_per_s, exp_rate(1, &consumed));
-        exp_per_s_n = fmax(exp_per_s_n, exp_rate(nthreads, &consumed));
-        madd_1 = fmax(madd_1, madd_rate(1, &consumed));
-        madd_n = fmax(madd_n, madd_rate(nthreads, &consumed));
+    for (int r = 0; r < REPEAT; r++) { /* the machine: each speedup from runs side by side */
+        e1[r] = exp_rate(1, &consumed);
+        esp[r] = exp_rate(nthreads, &consumed) / e1[r];
+        msp[r] = madd_rate(1, &consumed);
+        msp[r] = madd_rate(nthreads, &consumed) / msp[r];
     }
     printf("threads %d\n", nthreads);
-    printf("exp_per_s %.6g\n", exp_per_s);
-    printf("exp_speedup_n %.4f\n", exp_per_s_n / exp_per_s);
-    printf("madd_speedup_n %.4f\n", madd_n / madd_1);
-    if (small_grid(n_s / 10 > 2 ? n_s / 10 : 2, nthreads, exp_per_s, &consumed) != 0
-        || full_grid(n_s, nthreads, exp_per_s) != 0)
+    print_spread("exp_per_s", e1, REPEAT);
+    print_spread("exp_speedup_n", esp, REPEAT);
+    print_spread("madd_speedup_n", msp, REPEAT);
+    if (small_grid(n_s / 10 > 2 ? n_s / 10 : 2, nthreads, &consumed) != 0
+        || full_grid(n_s, nthreads, &consumed) != 0)
         return 1;
     printf("consumed %.17g\n", consumed);
     return 0;
