@@ -204,22 +204,31 @@ void vg_metrics_compute_run(size_t n, const vg_rates_run *light, const vg_rates_
          * stored two values at a time (the store of 15 doubles a point, not
          * their arithmetic, is what this loop's time goes to) */
         const v2d l10 = {VG_LOG10E, VG_LOG10E}, fill = {VG_FILL, VG_FILL};
-        for (size_t i = 0; i < n; i++, out += VG_N_METRICS) {
-            v2d a = (v2d){light->ln_k_elastic[i], light->ln_k_assisted[i]} * l10;
-            v2d b = (v2d){light->ln_k_total[i], light->ln_k_bare[i]} * l10;
-            v2d c = {(light->ln_fc_assisted[i] - light->ln_fc_elastic[i]) * VG_LOG10E,
-                     light->assisted_fraction[i]};
-            _Static_assert(VG_M_LOG10_K_ASSISTED == 1 && VG_M_LOG10_K_TOTAL == 2
-                           && VG_M_LOG10_K_BARE == 3 && VG_M_LOG10_RATIO == 4
-                           && VG_M_ASSISTED_FRACTION == 5 && VG_M_LOG10_CONTRAST == 6
-                           && VG_N_METRICS == 15, "the stores below follow the metric order");
-            memcpy(out, &a, sizeof a);
-            memcpy(out + 2, &b, sizeof b);
-            memcpy(out + 4, &c, sizeof c);
-            out[VG_M_LOG10_CONTRAST] = (light->ln_fc_total[i] - light->ln_fc_bare[i]) * VG_LOG10E;
-            for (int k = 7; !fill_kept && k < VG_N_METRICS - 1; k += 2) /* the rest: fill */
-                memcpy(out + k, &fill, sizeof fill);
+        /* the arrays in locals: the stores below (memcpy) may alias
+         * anything, so the compiler would otherwise read each pointer from
+         * the record again for every point */
+        const double *ke = light->ln_k_elastic, *ka = light->ln_k_assisted;
+        const double *kt = light->ln_k_total, *kb = light->ln_k_bare;
+        const double *fe = light->ln_fc_elastic, *fa = light->ln_fc_assisted;
+        const double *ft = light->ln_fc_total, *fb = light->ln_fc_bare;
+        const double *af = light->assisted_fraction;
+        double *o = out;
+        _Static_assert(VG_M_LOG10_K_ASSISTED == 1 && VG_M_LOG10_K_TOTAL == 2
+                       && VG_M_LOG10_K_BARE == 3 && VG_M_LOG10_RATIO == 4
+                       && VG_M_ASSISTED_FRACTION == 5 && VG_M_LOG10_CONTRAST == 6
+                       && VG_N_METRICS == 15, "the stores below follow the metric order");
+        for (size_t i = 0; i < n; i++, o += VG_N_METRICS) {
+            v2d a = (v2d){ke[i], ka[i]} * l10;
+            v2d b = (v2d){kt[i], kb[i]} * l10;
+            v2d c = {(fa[i] - fe[i]) * VG_LOG10E, af[i]};
+            memcpy(o, &a, sizeof a);
+            memcpy(o + 2, &b, sizeof b);
+            memcpy(o + 4, &c, sizeof c);
+            o[VG_M_LOG10_CONTRAST] = (ft[i] - fb[i]) * VG_LOG10E;
         }
+        for (size_t i = 0; !fill_kept && i < n; i++, out += VG_N_METRICS) /* the rest: fill */
+            for (int k = 7; k < VG_N_METRICS - 1; k += 2)
+                memcpy(out + k, &fill, sizeof fill);
         return;
     }
     for (size_t i = 0; i < n; i++, out += VG_N_METRICS) {

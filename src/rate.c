@@ -701,14 +701,25 @@ static inline __attribute__((always_inline)) vu usplat(unsigned long long x)
     return (vu){x, x, x, x};
 }
 
-/* a > b lane by lane, as all ones or zeros, from the sign of b - a: exact
- * for the kernel's operands (never NaN; b - a is never -0, as one side is
- * always a nonzero constant).  The compiler lowers a vector comparison wider
- * than the machine's registers to one scalar comparison a lane; this is a
- * subtraction, a shift and a negation in any width. */
+/* a > b lane by lane, as all ones or zeros (the kernel's operands are never
+ * NaN).  The AVX2 version is one comparison; the baseline compiler makes it
+ * one scalar comparison a lane, which only the baseline-only build and
+ * CPUs without AVX2 pay for. */
 static inline __attribute__((always_inline)) vi vgt(vd a, vd b)
 {
-    return (vi){0} - (vi)((vu)(b - a) >> 63);
+    return a > b;
+}
+
+/* a <= b lane by lane, as vgt. */
+static inline __attribute__((always_inline)) vi vle(vd a, vd b)
+{
+    return a <= b;
+}
+
+/* |x| lane by lane (the sign bit cleared). */
+static inline __attribute__((always_inline)) vd vabs(vd x)
+{
+    return (vd)((vu)x & usplat(0x7fffffffffffffffULL));
 }
 
 /* mask ? a : b, lane by lane (mask lanes are all ones or all zeros). */
@@ -970,7 +981,9 @@ static inline __attribute__((always_inline)) int lanes_reach(vg_rate_mode *m, vg
     if (gmax - p >= PEAK_WALK || p - gmin >= PEAK_WALK)
         return 0;
     lo = lo < nmin ? nmin : lo;
-    if (!q_monotone(m, row, lo, hi) || !q_get(m, row, p, q))
+    if (!(row->mono_lo <= lo && hi <= row->mono_hi) && !q_monotone(m, row, lo, hi))
+        return 0; /* (the range known already is checked here, without a call) */
+    if (!q_get(m, row, p, q))
         return 0;
     bad = vgt(vsplat(q[0]) * A, vsplat(1.0));
     if (p > nmin) {
@@ -1024,16 +1037,29 @@ typedef struct {
  * alone (they are not eligible alike, or would not all walk to the same
  * peak), else a bit mask of the lanes the log path must take (bit i: lane
  * i; ALL_LANES: all).  Every lane the log path does not take is complete,
- * prefactor included; ok[j] marks the lanes whose eight logs are finite. */
-static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, const double *g,
-                                    double tol, lanes_out *o, int *mask, vi *ok)
+ * prefactor included; bit i of fin[j] is set where lane i's eight logs
+ * are finite.  With dst, the first nfull groups go into dst's arrays from
+ * element i0 (group j at i0 + LANES j) instead of o[j], whose rate fields
+ * they leave unset; the lanes the log path must take are stored too, to be
+ * overwritten.  Returns the number of groups the caller has still to look
+ * at: those not stored in dst, and those with a lane to take again. */
+static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, const double *g,
+                                   double tol, lanes_out *o, int *mask, int *fin,
+                                   vg_rates_run *dst, size_t i0, int nfull)
 {
     long nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
     vd inv4lkt = vsplat(row->inv4lkt), lim = vsplat(LIN_LIMIT), one = vsplat(1.0);
     vd A[GROUPS], Ai[GROUPS], up[GROUPS], dn[GROUPS], ap[GROUPS], d[GROUPS];
     long g0[GROUPS], gmin[GROUPS], gmax[GROUPS]; /* walk starts: lane 0's, the lanes' range */
     double lw0 = ln_w(m, 0);
-    int k;
+    /* the row's and mode's constants, read once (the stores into o, vectors
+     * of doubles, may alias a double field, so the compiler could not keep
+     * them in registers across the loops by itself) */
+    const vd reorg = vsplat(row->reorg), two_c = vsplat(row->two_c_mode);
+    const vd inv_mode = vsplat(m->inv_mode), lnp = vsplat(row->ln_p);
+    const double S = m->S, mode = m->mode;
+    const int coupling_zero = row->coupling == 0.0;
+    int k, rest = 0;
 
     if (row->win_tol != tol) {
         row->win_tol = tol;
@@ -1046,20 +1072,16 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
         vi in;
         for (int i = 0; i < LANES; i++)
             gap[i] = gj[i];
-        d[j] = gap - vsplat(row->reorg);
-        ln_a = vsplat(row->two_c_mode) * d[j];
-        centre = d[j] * vsplat(m->inv_mode);
+        d[j] = gap - reorg;
+        ln_a = two_c * d[j];
+        centre = d[j] * inv_mode;
         o[j].bare = (-d[j] * d[j]) * inv4lkt;
         o[j].elastic = vsplat(lw0) + o[j].bare;
-        o[j].assisted = vsplat(-HUGE_VAL);
-        o[j].total = o[j].elastic;
-        o[j].fraction = vsplat(0.0);
         o[j].lo = o[j].hi = o[j].p = 0;
-        in = ~(vgt(ln_a, lim) | vgt(-lim, ln_a) | vgt(centre, vsplat((double)CHANNEL_LIMIT))
-               | vgt(vsplat(-(double)CHANNEL_LIMIT), centre));
+        in = vle(vabs(ln_a), lim) & vle(vabs(centre), vsplat((double)CHANNEL_LIMIT));
         A[j] = vexp(vsel(in, ln_a, vsplat(0.0)));
         Ai[j] = one / A[j];
-        if (m->S == 0.0) { /* no assisted channel: every lane is complete */
+        if (S == 0.0) { /* no assisted channel: every lane is complete */
             mask[j] = 0;
             continue;
         }
@@ -1067,18 +1089,22 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
             mask[j] = lane_bits(in) != 0 ? LANES_ALONE : ALL_LANES;
             continue;
         }
-        if (m->S > (double)CHANNEL_LIMIT || k == 0) {
+        if (S > (double)CHANNEL_LIMIT || k == 0) {
             mask[j] = ALL_LANES;
             continue;
         }
-        gmin[j] = gmax[j] = 0;
-        for (int i = 0; i < LANES; i++) {
-            long gi = (long)centre[i];
-            gi = gi < nmin ? nmin : gi;
-            gmin[j] = i == 0 || gi < gmin[j] ? gi : gmin[j];
-            gmax[j] = i == 0 || gi > gmax[j] ? gi : gmax[j];
-            if (i == 0)
-                g0[j] = gi;
+        { /* the lanes' walk starts: truncation and the clip at nmin are
+           * monotone, so the least and greatest start come from the least
+           * and greatest centre */
+            vd sw = __builtin_shufflevector(centre, centre, 2, 3, 0, 1);
+            vd lo_c = vsel(vgt(centre, sw), sw, centre), hi_c = vsel(vgt(sw, centre), sw, centre);
+            sw = __builtin_shufflevector(lo_c, lo_c, 1, 0, 3, 2);
+            lo_c = vsel(vgt(lo_c, sw), sw, lo_c);
+            sw = __builtin_shufflevector(hi_c, hi_c, 1, 0, 3, 2);
+            hi_c = vsel(vgt(sw, hi_c), sw, hi_c);
+            gmin[j] = (long)lo_c[0] < nmin ? nmin : (long)lo_c[0];
+            gmax[j] = (long)hi_c[0] < nmin ? nmin : (long)hi_c[0];
+            g0[j] = (long)centre[0] < nmin ? nmin : (long)centre[0];
         }
         mask[j] = LANES_PENDING;
     }
@@ -1110,7 +1136,8 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
         }
         lo = p - k < nmin ? nmin : p - k;
         hi = p + k;
-        if (hi >= CHANNEL_LIMIT || lo <= -CHANNEL_LIMIT || !window_fill(m, row, lo, hi)) {
+        if (hi >= CHANNEL_LIMIT || lo <= -CHANNEL_LIMIT
+            || (row->w_lo == lo && row->w_hi == hi ? !row->w_ok : !window_fill(m, row, lo, hi))) {
             mask[j] = ALL_LANES;
             continue;
         }
@@ -1133,7 +1160,7 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
             else
                 t0 = t;
         }
-        u = d[j] - vsplat((double)p * m->mode);
+        u = d[j] - vsplat((double)p * mode);
         ap[j] = vsplat(ln_w(m, p)) + (-u * u) * inv4lkt;
         if (!t0_known) { /* the window stops short of n = 0, so t_0 < t_p */
             vd dl = o[j].elastic - ap[j];
@@ -1146,26 +1173,48 @@ static VG_LANES_CLONES void win_run(vg_rate_mode *m, vg_rate_row *row, int ng, c
         o[j].p = p;
     }
     for (int j = 0; j < ng; j++) { /* the logs, the fraction and the prefactor */
-        vd lnp = vsplat(row->ln_p), sum;
+        vd sum, kb, ke, ka, kt;
+        vd assisted = vsplat(-HUGE_VAL), total = o[j].elastic, fraction = vsplat(0.0);
         if (mask[j] == LANES_PENDING) {
             vi small = vgt(vsplat(LIN_SUM_MIN), up[j]);
-            o[j].assisted = ap[j] + vlog(vsel(small, one, up[j]));
-            o[j].total = ap[j] + vlog(dn[j]);
-            o[j].fraction = up[j] / dn[j];
+            assisted = ap[j] + vlog(vsel(small, one, up[j]));
+            total = ap[j] + vlog(dn[j]);
+            fraction = up[j] / dn[j];
             mask[j] = lane_bits(small);
         }
-        if (row->coupling == 0.0) {
-            o[j].k_bare = o[j].k_elastic = o[j].k_assisted = o[j].k_total = vsplat(-HUGE_VAL);
+        if (coupling_zero) {
+            kb = ke = ka = kt = vsplat(-HUGE_VAL);
         } else {
-            o[j].k_bare = lnp + o[j].bare;
-            o[j].k_elastic = lnp + o[j].elastic;
-            o[j].k_assisted = lnp + o[j].assisted;
-            o[j].k_total = lnp + o[j].total;
+            kb = lnp + o[j].bare;
+            ke = lnp + o[j].elastic;
+            ka = lnp + assisted;
+            kt = lnp + total;
         }
-        sum = o[j].bare + o[j].elastic + o[j].assisted + o[j].total + o[j].k_bare
-              + o[j].k_elastic + o[j].k_assisted + o[j].k_total;
-        ok[j] = sum - sum == vsplat(0.0); /* finite (NaN and +-inf give NaN) */
+        sum = o[j].bare + o[j].elastic + assisted + total + kb + ke + ka + kt;
+        fin[j] = lane_bits(sum - sum == vsplat(0.0)); /* finite (NaN and +-inf give NaN) */
+        rest += !(dst && j < nfull) || mask[j] != 0 || fin[j] != ALL_LANES;
+        if (dst && j < nfull) { /* a whole group of a run: straight into its arrays */
+            size_t at = i0 + (size_t)(LANES * j);
+            memcpy(dst->ln_k_elastic + at, &ke, sizeof(vd));
+            memcpy(dst->ln_k_assisted + at, &ka, sizeof(vd));
+            memcpy(dst->ln_k_total + at, &kt, sizeof(vd));
+            memcpy(dst->ln_k_bare + at, &kb, sizeof(vd));
+            memcpy(dst->ln_fc_elastic + at, &o[j].elastic, sizeof(vd));
+            memcpy(dst->ln_fc_assisted + at, &assisted, sizeof(vd));
+            memcpy(dst->ln_fc_total + at, &total, sizeof(vd));
+            memcpy(dst->ln_fc_bare + at, &o[j].bare, sizeof(vd));
+            memcpy(dst->assisted_fraction + at, &fraction, sizeof(vd));
+        } else {
+            o[j].assisted = assisted;
+            o[j].total = total;
+            o[j].fraction = fraction;
+            o[j].k_bare = kb;
+            o[j].k_elastic = ke;
+            o[j].k_assisted = ka;
+            o[j].k_total = kt;
+        }
     }
+    return rest;
 }
 
 /* k_assisted / k_total from the log difference, for the log path. */
@@ -1282,34 +1331,42 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
                           double tol, vg_rates *out, vg_rates_run *run, size_t i0,
                           size_t *done, vg_error *err)
 {
-    lanes_out o[GROUPS], oi;
-    int mask[GROUPS], mi;
+    lanes_out o[GROUPS], oa[LANES];
+    int mask[GROUPS], ma[LANES], fin[GROUPS], fa[LANES];
     int cz = row->coupling == 0.0, az = m->S == 0.0;
-    vi ok[GROUPS], oki;
+    int nfull = run ? nl / LANES : 0; /* groups win_run stores in the arrays itself */
 
-    win_run(m, row, ng, g, tol, o, mask, ok);
+    *done = (size_t)nl;
+    if (win_run(m, row, ng, g, tol, o, mask, fin, run, i0, nfull) == 0)
+        return VG_OK; /* the usual case: every point complete and in the arrays */
     for (int j = 0; j * LANES < nl; j++) {
         int nj = nl - j * LANES < LANES ? nl - j * LANES : LANES;
-        /* the usual case: every lane complete, straight into the arrays */
-        if (run && mask[j] == 0 && lane_bits(ok[j]) == ALL_LANES) {
-            run_lanes(run, i0 + (size_t)(j * LANES), &o[j], nj);
+        if (run && mask[j] == 0 && fin[j] == ALL_LANES) { /* complete */
+            if (j >= nfull)
+                run_lanes(run, i0 + (size_t)(j * LANES), &o[j], nj);
             continue;
+        }
+        if (mask[j] == LANES_ALONE) { /* each lane's gap in every lane of a group, one call */
+            double ga[LANES * LANES];
+            for (int l = 0; l < nj; l++)
+                for (int l2 = 0; l2 < LANES; l2++)
+                    ga[LANES * l + l2] = g[j * LANES + l];
+            win_run(m, row, nj, ga, tol, oa, ma, fa, NULL, 0, 0);
         }
         for (int l = 0; l < nj; l++) {
             int i = j * LANES + l, log_path, finite;
             vg_rates rec, *r = run ? &rec : &out[i];
-            if (mask[j] == LANES_ALONE) { /* its gap in every lane */
-                double gi[LANES];
-                for (int l2 = 0; l2 < LANES; l2++)
-                    gi[l2] = g[i];
-                win_run(m, row, 1, gi, tol, &oi, &mi, &oki);
-                lane_store(&oi, 0, cz, az, r);
-                log_path = mi & 1;
-                finite = oki[0] != 0;
+            if (mask[j] == LANES_ALONE) {
+                lane_store(&oa[l], 0, cz, az, r);
+                log_path = ma[l] & 1;
+                finite = fa[l] & 1;
             } else {
-                lane_store(&o[j], l, cz, az, r);
+                if (j < nfull)
+                    vg_rates_run_get(run, i0 + (size_t)i, r);
+                else
+                    lane_store(&o[j], l, cz, az, r);
                 log_path = (mask[j] >> l) & 1;
-                finite = ok[j][l] != 0;
+                finite = (fin[j] >> l) & 1;
             }
             if (log_path || !finite) {
                 vg_status st = lane_rest(m, row, g[i], tol, log_path, r, err);
@@ -1346,6 +1403,17 @@ static vg_status eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const do
         size_t nl = n - j < GROUPS * LANES ? n - j : GROUPS * LANES, good = nl, ok = 0;
         double g[GROUPS * LANES];
         vg_status st = VG_OK;
+        int finite = 1;
+        for (size_t i = 0; i < nl; i++)
+            finite &= fabs(gap_meV[j + i]) <= DBL_MAX;
+        if (finite && nl % LANES == 0) { /* whole groups of finite gaps: read in place */
+            st = eval_run(m, row, gap_meV + j, (int)(nl / LANES), (int)nl, tol,
+                          out ? out + j : NULL, run, j, &ok, err);
+            *done = j + ok;
+            if (st != VG_OK)
+                return st;
+            continue;
+        }
         for (size_t i = 0; i < nl; i++) /* the last group padded with its last gap */
             if (!isfinite(g[i] = gap_meV[j + i]) && good == nl)
                 good = i;
