@@ -112,7 +112,7 @@ $(B)/tests/%: tests/tools/%.c $(B)/libvibrogate.a | $(B)/tests
 	$(call say,LD,$@)
 	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
 
-$(B)/bench/%: tests/bench/%.c $(B)/libvibrogate.a | $(B)/bench
+$(B)/bench/%: tests/bench/%.c $(wildcard tests/bench/*.h) $(B)/libvibrogate.a | $(B)/bench
 	$(call say,LD,$@)
 	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(B)/libvibrogate.a $(ALL_LIBS)
 

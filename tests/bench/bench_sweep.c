@@ -53,21 +53,7 @@
 #include "vg_rate.h"
 #include "vg_sweep.h"
 
-/* The grid, invented for the benchmark: a 1600 cm-1 mode (C=O stretch
- * region, common practice) and receptor-like ranges of gap, reorganization
- * and coupling (docs/theory.md, typical ranges); %zu is the number of
- * huang_rhys values (20: 500 x 200 x 20 x 5 = 10^7 points). */
-static const char grid_format[] =
-    "[parameters]\n"
-    "gap = -200 .. 800 meV, 500 points\n"
-    "reorganization = 10 .. 500 meV, 200 points, log\n"
-    "electronic_coupling = 1 meV\n"
-    "huang_rhys = 0.01 .. 1, %zu points, log\n"
-    "mode = 1600 cm-1\n"
-    "temperature = 250 .. 350 K, 5 points\n"
-    "[output]\n"
-    "data = netcdf\n"
-    "max_size = 1 TB\n";
+#include "bench_kernel.h"
 
 #define REPEAT 7
 /* Chunk of the scheduling diagnostic (the engine's default is 16384). */
@@ -77,35 +63,18 @@ static const char grid_format[] =
  * 50 ms on the 2-core machine of docs/performance.md). */
 #define EXP_ARGS 4096
 #define EXP_PASSES 2000
-/* Weight-table size for the kernel-only loop (channels -TAB/2 .. TAB/2). */
-#define KERNEL_TAB 512
 
 typedef struct {
     uint64_t hash; /* order-sensitive: FNV-1a over the metric bits */
     size_t points;
 } checksum;
 
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-
-    return (x > y) - (x < y);
-}
-
 /* "key median", "key_lo least" and "key_hi greatest" of v[0..n) (sorts v). */
 static void print_spread(const char *key, double *v, size_t n)
 {
-    qsort(v, n, sizeof *v, cmp_double);
+    qsort(v, n, sizeof *v, bench_cmp_double);
     printf("%s %.4g\n%s_lo %.4g\n%s_hi %.4g\n", key,
            n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]), key, v[0], key, v[n - 1]);
-}
-
-static double now_seconds(void)
-{
-    struct timespec ts;
-
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
 
 static long peak_rss_kib(void)
@@ -164,14 +133,14 @@ static double exp_loop(void)
  * (nthreads = 1: the ceiling of one core). */
 static double exp_rate(int nthreads, double *consumed)
 {
-    double acc = 0.0, t0 = now_seconds();
+    double acc = 0.0, t0 = bench_now();
 
 #ifdef _OPENMP
 #pragma omp parallel num_threads(nthreads) reduction(+ : acc)
 #endif
     acc += exp_loop();
     *consumed += acc;
-    return (double)nthreads * EXP_ARGS * EXP_PASSES / (now_seconds() - t0);
+    return (double)nthreads * EXP_ARGS * EXP_PASSES / (bench_now() - t0);
 }
 
 /* Multiply-adds a second: MADD_CHAINS independent chains (so the loop is
@@ -185,7 +154,7 @@ static double exp_rate(int nthreads, double *consumed)
 #define MADD_PASSES 50000000L
 static double madd_rate(int nthreads, double *consumed)
 {
-    double acc = 0.0, t0 = now_seconds();
+    double acc = 0.0, t0 = bench_now();
 
 #ifdef _OPENMP
 #pragma omp parallel num_threads(nthreads) reduction(+ : acc)
@@ -201,15 +170,15 @@ static double madd_rate(int nthreads, double *consumed)
             acc += a[c];
     }
     *consumed += acc;
-    return (double)nthreads * MADD_CHAINS * MADD_PASSES / (now_seconds() - t0);
+    return (double)nthreads * MADD_CHAINS * MADD_PASSES / (bench_now() - t0);
 }
 
 static int load_grid(vg_config *cfg, vg_grid *g, size_t n_s)
 {
-    char text[sizeof grid_format + 32];
+    char text[sizeof bench_grid_format + 32];
     vg_error err = {VG_OK, ""};
 
-    snprintf(text, sizeof text, grid_format, n_s);
+    snprintf(text, sizeof text, bench_grid_format, n_s);
     if (vg_config_load_text(cfg, "bench_sweep", text, 0, NULL, &err) != VG_OK) {
         fprintf(stderr, "bench_sweep: %s\n", err.msg);
         return -1;
@@ -225,7 +194,7 @@ static double timed_sweep(const vg_grid *g, int threads, size_t chunk, vg_sweep_
 {
     vg_sweep_opts o = {0};
     vg_error err = {VG_OK, ""};
-    double t0 = now_seconds();
+    double t0 = bench_now();
 
     o.threads = threads;
     o.chunk = chunk;
@@ -233,7 +202,7 @@ static double timed_sweep(const vg_grid *g, int threads, size_t chunk, vg_sweep_
         fprintf(stderr, "bench_sweep: %s\n", err.msg);
         return -1.0;
     }
-    return now_seconds() - t0;
+    return bench_now() - t0;
 }
 
 /* 1 thread and nthreads give the same bits; prints the checksum lines. */
@@ -291,48 +260,19 @@ static int sweep_rates(const vg_grid *g, int nthreads, double *consumed)
     return 0;
 }
 
-/* Kernel alone: vg_rate_eval_gaps_run over every (gap) row of the grid for
- * each (huang_rhys, temperature, reorganization), one thread, a weight
- * table and a step cache attached as the sweep engine does them, no grid
- * indexing, no metrics; REPEAT times, each between two exp() slices.
- * Prints the best points per second and the cost of a point in exp()
- * calls; the results go into *consumed. */
+/* Kernel alone (bench_kernel_pass), REPEAT times, each between two exp()
+ * slices.  Prints the best points per second and the cost of a point in
+ * exp() calls; the results go into *consumed. */
 static int kernel_rate(const vg_config *cfg, double *consumed)
 {
-    static double tab[KERNEL_TAB], q[KERNEL_TAB], qi[KERNEL_TAB], arr[9][1024];
-    static unsigned char set[KERNEL_TAB];
-    static unsigned gen[KERNEL_TAB];
-    const vg_param *p = cfg->param;
-    size_t n = p[VG_P_GAP].n * p[VG_P_REORG].n * p[VG_P_HUANG_RHYS].n * p[VG_P_TEMPERATURE].n;
+    const bench_kernel k = BENCH_KERNEL_LINKED;
+    size_t n = bench_points(cfg);
     double best = 0.0, cost[REPEAT];
-    vg_rate_row row = {0};
-    vg_rates_run run = {arr[0], arr[1], arr[2], arr[3], arr[4], arr[5], arr[6], arr[7], arr[8],
-                        0, 0};
 
-    if (p[VG_P_GAP].n > 1024)
-        return -1;
     for (int r = 0; r < REPEAT; r++) {
-        double ea = exp_slice(consumed), t0 = now_seconds(), dt;
-        for (size_t it = 0; it < p[VG_P_TEMPERATURE].n; it++)
-            for (size_t is = 0; is < p[VG_P_HUANG_RHYS].n; is++) {
-                vg_rate_mode m;
-                vg_error err = {VG_OK, ""};
-                if (vg_rate_mode_init(&m, cfg->stats, p[VG_P_HUANG_RHYS].v[is], p[VG_P_MODE].v[0],
-                                      p[VG_P_TEMPERATURE].v[it], &err) != VG_OK)
-                    return -1;
-                vg_rate_mode_attach_table(&m, -KERNEL_TAB / 2, KERNEL_TAB, tab, set);
-                vg_rate_row_attach(&row, -KERNEL_TAB / 2, KERNEL_TAB, q, qi, gen);
-                for (size_t il = 0; il < p[VG_P_REORG].n; il++) {
-                    size_t done;
-                    if (vg_rate_row_begin(&row, &m, p[VG_P_REORG].v[il], p[VG_P_COUPLING].v[0],
-                                          &err) != VG_OK
-                        || vg_rate_eval_gaps_run(&m, &row, p[VG_P_GAP].n, p[VG_P_GAP].v,
-                                                 cfg->tolerance, &run, &done, &err) != VG_OK)
-                        return -1;
-                    *consumed += arr[2][p[VG_P_GAP].n / 2];
-                }
-            }
-        dt = now_seconds() - t0;
+        double ea = exp_slice(consumed), dt = bench_kernel_pass(&k, cfg, consumed);
+        if (dt < 0.0)
+            return -1;
         best = fmax(best, (double)n / dt);
         cost[r] = (dt / (double)n) / (0.5 * (ea + exp_slice(consumed)));
     }
