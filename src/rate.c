@@ -1402,27 +1402,22 @@ static vg_status eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const do
     for (size_t j = 0; j < n; j += GROUPS * LANES) {
         size_t nl = n - j < GROUPS * LANES ? n - j : GROUPS * LANES, good = nl, ok = 0;
         double g[GROUPS * LANES];
+        const double *gp = gap_meV + j; /* whole groups of finite gaps: read in place */
         vg_status st = VG_OK;
         int finite = 1;
         for (size_t i = 0; i < nl; i++)
             finite &= fabs(gap_meV[j + i]) <= DBL_MAX;
-        if (finite && nl % LANES == 0) { /* whole groups of finite gaps: read in place */
-            st = eval_run(m, row, gap_meV + j, (int)(nl / LANES), (int)nl, tol,
-                          out ? out + j : NULL, run, j, &ok, err);
-            *done = j + ok;
-            if (st != VG_OK)
-                return st;
-            continue;
-        }
-        for (size_t i = 0; i < nl; i++) /* the last group padded with its last gap */
-            if (!isfinite(g[i] = gap_meV[j + i]) && good == nl)
-                good = i;
-        if (good > 0) {
-            size_t ng = (good + LANES - 1) / LANES;
-            for (size_t i = good; i < ng * LANES; i++)
+        if (!finite || nl % LANES != 0) { /* else a copy, the last group padded with its last gap */
+            for (size_t i = 0; i < nl; i++)
+                if (!isfinite(g[i] = gap_meV[j + i]) && good == nl)
+                    good = i;
+            for (size_t i = good; good > 0 && i < (good + LANES - 1) / LANES * LANES; i++)
                 g[i] = g[good - 1];
-            st = eval_run(m, row, g, (int)ng, (int)good, tol, out ? out + j : NULL, run, j, &ok,
-                          err);
+            gp = g;
+        }
+        if (good > 0) {
+            st = eval_run(m, row, gp, (int)((good + LANES - 1) / LANES), (int)good, tol,
+                          out ? out + j : NULL, run, j, &ok, err);
             *done = j + ok;
         }
         if (st != VG_OK)
