@@ -30,6 +30,7 @@
 #include <float.h>
 #include <limits.h>
 #include <math.h>
+#include <stdint.h>
 #include <string.h>
 
 #include <gsl/gsl_errno.h>
@@ -964,17 +965,27 @@ static int q_monotone(vg_rate_mode *m, vg_rate_row *row, long lo, long hi)
     return 1;
 }
 
+/* q_p and q_{p-1} of the peak lanes_reach last tested, kept for the
+ * groups of one call (the peak seldom changes between them); p = nmin - 1:
+ * none yet.  ok: both in the linear range (q_{p-1} only where p > nmin). */
+typedef struct {
+    long p;
+    double q, qm;
+    int ok;
+} peak_steps;
+
 /* 1 if every lane alone would walk to peak p (lin_peak from its start
  * with its own A): each start within PEAK_WALK - 1 steps of p, the q_n on
  * the walks in the linear range and non-increasing (so that q_n A_i falls
  * through 1 once), and p a peak for every lane (q_p A_i <= 1, and
- * q_{p-1} A_i > 1 unless p is the lowest channel). */
+ * q_{p-1} A_i > 1 unless p is the lowest channel).  ps holds the q of the
+ * last peak tested, which is usually p again. */
 static inline __attribute__((always_inline)) int lanes_reach(vg_rate_mode *m, vg_rate_row *row,
                                                               long nmin, long p, long gmin,
-                                                              long gmax, const vd *Ap)
+                                                              long gmax, const vd *Ap,
+                                                              peak_steps *ps)
 {
     vd A = *Ap;
-    double q[2], qm[2];
     long lo = gmin < p - 1 ? gmin : p - 1, hi = gmax > p ? gmax : p;
     vi bad;
 
@@ -983,14 +994,18 @@ static inline __attribute__((always_inline)) int lanes_reach(vg_rate_mode *m, vg
     lo = lo < nmin ? nmin : lo;
     if (!(row->mono_lo <= lo && hi <= row->mono_hi) && !q_monotone(m, row, lo, hi))
         return 0; /* (the range known already is checked here, without a call) */
-    if (!q_get(m, row, p, q))
-        return 0;
-    bad = vgt(vsplat(q[0]) * A, vsplat(1.0));
-    if (p > nmin) {
-        if (!q_get(m, row, p - 1, qm))
-            return 0;
-        bad |= ~vgt(vsplat(qm[0]) * A, vsplat(1.0));
+    if (ps->p != p) {
+        double q[2], qm[2] = {0.0, 0.0};
+        ps->p = p;
+        ps->ok = q_get(m, row, p, q) && (p == nmin || q_get(m, row, p - 1, qm));
+        ps->q = q[0];
+        ps->qm = qm[0];
     }
+    if (!ps->ok)
+        return 0;
+    bad = vgt(vsplat(ps->q) * A, vsplat(1.0));
+    if (p > nmin)
+        bad |= ~vgt(vsplat(ps->qm) * A, vsplat(1.0));
     return lane_bits(bad) == 0;
 }
 
@@ -1059,6 +1074,7 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
     const vd inv_mode = vsplat(m->inv_mode), lnp = vsplat(row->ln_p);
     const double S = m->S, mode = m->mode;
     const int coupling_zero = row->coupling == 0.0;
+    peak_steps ps = {nmin - 1, 0.0, 0.0, 0};
     int k, rest = 0;
 
     if (row->win_tol != tol) {
@@ -1120,12 +1136,12 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
         /* the last group's peak if every lane would reach it, else lane 0's
          * walk (for a point alone, the walk is the definition) */
         if (single || !row->p_set
-            || !lanes_reach(m, row, nmin, row->p_prev, gmin[j], gmax[j], &A[j])) {
+            || !lanes_reach(m, row, nmin, row->p_prev, gmin[j], gmax[j], &A[j], &ps)) {
             if (!lin_peak(m, row, nmin, g0[j], A[j][0], &p)) {
                 mask[j] = single ? ALL_LANES : LANES_ALONE;
                 continue;
             }
-            if (!single && !lanes_reach(m, row, nmin, p, gmin[j], gmax[j], &A[j])) {
+            if (!single && !lanes_reach(m, row, nmin, p, gmin[j], gmax[j], &A[j], &ps)) {
                 mask[j] = LANES_ALONE;
                 continue;
             }
@@ -1383,6 +1399,31 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
     return VG_OK;
 }
 
+/* 1 if every x[0..n) is finite, from the exponent bits: with the other
+ * bits cleared, adding 2^52 reaches bit 63 for an exponent of all ones
+ * (infinity or NaN) and for no other, so the OR of the sums has bit 63 set
+ * exactly when one of them is not finite.  Integer operations only, in
+ * four independent chains the compiler can keep in vector registers. */
+static int all_finite(const double *x, size_t n)
+{
+    const uint64_t exp_bits = 0x7ff0000000000000ULL, unit = 0x0010000000000000ULL;
+    uint64_t acc[4] = {0, 0, 0, 0};
+    size_t i = 0;
+
+    for (; i + 4 <= n; i += 4)
+        for (int l = 0; l < 4; l++) {
+            uint64_t b;
+            memcpy(&b, x + i + l, sizeof b);
+            acc[l] |= (b & exp_bits) + unit;
+        }
+    for (; i < n; i++) {
+        uint64_t b;
+        memcpy(&b, x + i, sizeof b);
+        acc[0] |= (b & exp_bits) + unit;
+    }
+    return ((acc[0] | acc[1] | acc[2] | acc[3]) >> 63) == 0;
+}
+
 /* vg_rate_eval_gaps and vg_rate_eval_gaps_run (run != NULL). */
 static vg_status eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const double *gap_meV,
                            double tol, vg_rates *out, vg_rates_run *run, size_t *done,
@@ -1404,10 +1445,7 @@ static vg_status eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const do
         double g[GROUPS * LANES];
         const double *gp = gap_meV + j; /* whole groups of finite gaps: read in place */
         vg_status st = VG_OK;
-        int finite = 1;
-        for (size_t i = 0; i < nl; i++)
-            finite &= fabs(gap_meV[j + i]) <= DBL_MAX;
-        if (!finite || nl % LANES != 0) { /* else a copy, the last group padded with its last gap */
+        if (!all_finite(gap_meV + j, nl) || nl % LANES != 0) { /* else a copy, the last group padded with its last gap */
             for (size_t i = 0; i < nl; i++)
                 if (!isfinite(g[i] = gap_meV[j + i]) && good == nl)
                     good = i;
