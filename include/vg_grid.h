@@ -34,4 +34,8 @@ void vg_grid_values(const vg_grid *g, size_t flat, double v[VG_NPARAM]);
 /* Estimated bytes the chosen outputs of cfg take on disk. */
 double vg_grid_output_bytes(const vg_config *cfg);
 
+/* Bytes the run's checkpoint takes once every point is computed; it stays
+ * on disk beside the outputs until they are written (src/checkpoint.h). */
+double vg_grid_checkpoint_bytes(const vg_config *cfg);
+
 #endif

@@ -23,7 +23,8 @@
 /* First line of the state file, "KEY LAYOUT"; the layout number changes
  * with the layout of either file. */
 #define STATE_KEY "vibrogate_checkpoint"
-#define STATE_LAYOUT "2" /* 2: the metrics digest over 64-bit words */
+#define STATE_LAYOUT "3" /* 2: the metrics digest over 64-bit words; 3: the stored
+                             metrics only, point_bytes */
 #define STATE_NAME "state"
 #define STATE_TMP_NAME "state.tmp"
 /* Every writer's temporary file starts so (src/output.c); a name that does
@@ -46,8 +47,11 @@ struct vg_ckpt {
     int fd;                  /* metrics file, locked */
     int dirfd;               /* the run directory, for fsync after rename */
     unsigned char *buf;      /* encoded chunk */
-    double *vals;            /* decoded chunk (replay) */
+    double *vals;            /* decoded chunk (replay): VG_N_METRICS a point, the
+                                ones not stored VG_FILL */
     size_t cap;              /* points buf and vals hold */
+    int col[VG_N_METRICS];   /* the stored metrics, in metric order */
+    size_t ncols;
 };
 
 /* ---- digest ------------------------------------------------------------ */
@@ -97,7 +101,7 @@ void vg_ckpt_digest(const vg_ckpt_inputs *in, uint64_t d[VG_CKPT_NPARTS])
 {
     uint64_t h = fold_str(VG_CKPT_FNV_BASIS, STATE_KEY " " STATE_LAYOUT);
 
-    h = fold_u64(fold_u64(h, VG_N_METRICS), VG_CKPT_POINT_BYTES);
+    h = fold_u64(h, VG_N_METRICS);
     d[VG_CKPT_PART_VERSION] = fold_str(h, in->version);
     d[VG_CKPT_PART_TEXT] = fold_u64(fold_str(VG_CKPT_FNV_BASIS, in->config_text), in->tables);
     d[VG_CKPT_PART_SETS] = fold_str(VG_CKPT_FNV_BASIS, in->overrides);
@@ -136,11 +140,11 @@ vg_status vg_ckpt_state_format(const vg_ckpt_state *s, char **text, size_t *len,
         return vg_error_set(err, VG_ENOMEM, "out of memory for the checkpoint record");
     n = (size_t)snprintf(t, cap, STATE_KEY " " STATE_LAYOUT "\ndigest %016llx %016llx %016llx %016llx\n"
                          "points %zu\nchunk %zu\ndone %zu\nmetrics_bytes %llu\n"
-                         "metrics_fnv1a %016llx\n",
+                         "metrics_fnv1a %016llx\npoint_bytes %llu\n",
                          (unsigned long long)s->digest[0], (unsigned long long)s->digest[1],
                          (unsigned long long)s->digest[2], (unsigned long long)s->digest[3],
                          s->npoints, s->chunk, s->done, (unsigned long long)s->metrics_bytes,
-                         (unsigned long long)s->metrics_fnv);
+                         (unsigned long long)s->metrics_fnv, (unsigned long long)s->point_bytes);
     n += put_str(t + n, cap - n, "version", s->version);
     n += put_str(t + n, cap - n, "config_path", s->config_path);
     n += put_str(t + n, cap - n, "history", s->history);
@@ -320,7 +324,9 @@ static const char *consistency(const vg_ckpt_state *s)
         return "more points are done than the grid has";
     if (s->done % s->chunk != 0 && s->done != s->npoints)
         return "the points done are not a whole number of chunks";
-    if (s->metrics_bytes != (uint64_t)s->done * VG_CKPT_POINT_BYTES)
+    if (s->point_bytes == 0 || s->point_bytes % 8 != 0 || s->point_bytes > VG_CKPT_POINT_BYTES_MAX)
+        return "the bytes a point takes are not 8 for each of 1 to 15 metrics";
+    if (s->metrics_bytes != (uint64_t)s->done * s->point_bytes)
         return "the metrics length does not match the points done";
     return NULL;
 }
@@ -333,9 +339,9 @@ static void parse_fields(cursor *c, vg_ckpt_state *s)
     if (layout && (n != strlen(STATE_LAYOUT) || memcmp(layout, STATE_LAYOUT, n) != 0))
         bad(c, "another version of vibrogate wrote it, in another layout");
     digests(c, "digest", s->digest, VG_CKPT_NPARTS);
-    s->npoints = (size_t)number(c, "points", UINT64_MAX / VG_CKPT_POINT_BYTES);
+    s->npoints = (size_t)number(c, "points", UINT64_MAX / VG_CKPT_POINT_BYTES_MAX);
     s->chunk = (size_t)number(c, "chunk", SIZE_MAX);
-    s->done = (size_t)number(c, "done", UINT64_MAX / VG_CKPT_POINT_BYTES);
+    s->done = (size_t)number(c, "done", UINT64_MAX / VG_CKPT_POINT_BYTES_MAX);
     s->metrics_bytes = number(c, "metrics_bytes", UINT64_MAX);
     const char *v = field(c, "metrics_fnv1a", &n);
     if (v) {
@@ -343,6 +349,7 @@ static void parse_fields(cursor *c, vg_ckpt_state *s)
         if (!c->why && n != 16)
             bad(c, "a digest is not 16 hexadecimal digits");
     }
+    s->point_bytes = number(c, "point_bytes", UINT64_MAX);
     s->version = string(c, "version");
     s->config_path = string(c, "config_path");
     s->history = string(c, "history");
@@ -490,7 +497,8 @@ static vg_status read_state(vg_ckpt *ck, vg_ckpt_state *s, int *found, vg_error 
     return st == VG_OK ? VG_OK : damaged(ck, err);
 }
 
-/* Room for n points in buf and vals. */
+/* Room for n points in buf and vals; the metrics not stored are VG_FILL in
+ * vals from here on (decode writes only the stored ones). */
 static int reserve(vg_ckpt *ck, size_t n)
 {
     unsigned char *b;
@@ -498,7 +506,7 @@ static int reserve(vg_ckpt *ck, size_t n)
 
     if (n <= ck->cap)
         return 0;
-    b = realloc(ck->buf, n * VG_CKPT_POINT_BYTES);
+    b = realloc(ck->buf, n * (size_t)ck->st.point_bytes);
     if (b)
         ck->buf = b;
     v = realloc(ck->vals, n * VG_N_METRICS * sizeof *v);
@@ -506,36 +514,35 @@ static int reserve(vg_ckpt *ck, size_t n)
         ck->vals = v;
     if (!b || !v)
         return -1;
+    for (size_t i = 0; i < n * VG_N_METRICS; i++)
+        v[i] = VG_FILL;
     ck->cap = n;
     return 0;
 }
 
-static void encode(unsigned char *out, const double *x, size_t n)
+/* The stored metrics of n points of x (VG_N_METRICS a point) into out, as
+ * the file holds them. */
+static void encode(const vg_ckpt *ck, unsigned char *out, const double *x, size_t n)
 {
-#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
-    memcpy(out, x, n * sizeof *x); /* the bytes already are in file order */
-    return;
-#endif
-    for (size_t i = 0; i < n; i++) {
-        uint64_t u;
-        memcpy(&u, &x[i], sizeof u);
-        for (int b = 0; b < 8; b++)
-            out[8 * i + (size_t)b] = (unsigned char)(u >> (8 * b));
-    }
+    for (size_t i = 0; i < n; i++, x += VG_N_METRICS)
+        for (size_t c = 0; c < ck->ncols; c++, out += 8) {
+            uint64_t u;
+            memcpy(&u, &x[ck->col[c]], sizeof u);
+            for (int b = 0; b < 8; b++)
+                out[b] = (unsigned char)(u >> (8 * b));
+        }
 }
 
-static void decode(double *x, const unsigned char *in, size_t n)
+/* The inverse of encode, into the stored metrics of x. */
+static void decode(const vg_ckpt *ck, double *x, const unsigned char *in, size_t n)
 {
-#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
-    memcpy(x, in, n * sizeof *x);
-    return;
-#endif
-    for (size_t i = 0; i < n; i++) {
-        uint64_t u = 0;
-        for (int b = 8; b-- > 0;)
-            u = u << 8 | in[8 * i + (size_t)b];
-        memcpy(&x[i], &u, sizeof u);
-    }
+    for (size_t i = 0; i < n; i++, x += VG_N_METRICS)
+        for (size_t c = 0; c < ck->ncols; c++, in += 8) {
+            uint64_t u = 0;
+            for (int b = 8; b-- > 0;)
+                u = u << 8 | in[b];
+            memcpy(&x[ck->col[c]], &u, sizeof u);
+        }
 }
 
 /* FNV-1a of the first len bytes of the metrics file. */
@@ -718,6 +725,8 @@ static vg_status start_fresh(vg_ckpt *ck, const vg_ckpt_request *rq,
         vg_ckpt_state_free(&old);
     if (st == VG_OK)
         st = new_state(&ck->st, rq, in, digest, err);
+    if (st == VG_OK)
+        ck->st.point_bytes = 8u * ck->ncols;
     if (st == VG_OK && ftruncate(ck->fd, 0) != 0)
         st = io_fail("write", ck->metrics_path, errno, err);
     if (st == VG_OK)
@@ -766,6 +775,11 @@ static vg_status check_resume(vg_ckpt *ck, const vg_ckpt_request *rq, const uint
                             "config or version (%s); remove '%s' to start afresh, or resume "
                             "with the config and options of the run that made it (history: "
                             "%s)", rq->dir, why, ck->run, command_of(ck->st.history));
+    if (ck->st.point_bytes != 8u * ck->ncols) {
+        vg_error_set(err, VG_EIO, "its points take %llu bytes, not 8 for each of the %zu "
+                     "stored metrics", (unsigned long long)ck->st.point_bytes, ck->ncols);
+        return damaged(ck, err);
+    }
     if (fstat(ck->fd, &sb) != 0)
         return io_fail("read", ck->metrics_path, errno, err);
     if (vg_ckpt_check_length((uint64_t)sb.st_size, ck->st.metrics_bytes, &cut, err) != VG_OK)
@@ -857,7 +871,14 @@ vg_status vg_ckpt_open(vg_ckpt **out, const vg_ckpt_request *rq, const vg_ckpt_i
     if (!ck)
         return vg_error_set(err, VG_ENOMEM, "out of memory opening the checkpoint in '%s'",
                             rq->dir);
-    if (in->npoints > (uint64_t)INT64_MAX / VG_CKPT_POINT_BYTES || in->chunk == 0) {
+    for (int m = 0; m < VG_N_METRICS; m++)
+        if (in->metric_on[m])
+            ck->col[ck->ncols++] = m;
+    if (ck->ncols == 0) {
+        ckpt_free(ck);
+        return vg_error_set(err, VG_EIO, "a checkpoint needs at least one stored metric");
+    }
+    if (in->npoints > (uint64_t)INT64_MAX / VG_CKPT_POINT_BYTES_MAX || in->chunk == 0) {
         ckpt_free(ck);
         return vg_error_set(err, VG_EIO, "a checkpoint cannot hold a grid of %zu points",
                             in->npoints);
@@ -901,7 +922,7 @@ vg_status vg_ckpt_append(void *ctx, size_t start, size_t count, const double *me
 {
     vg_ckpt *ck = ctx;
     vg_ckpt_state next = ck->st;
-    uint64_t bytes = (uint64_t)count * VG_CKPT_POINT_BYTES;
+    uint64_t bytes = (uint64_t)count * ck->st.point_bytes;
     int e;
 
     if (start != ck->st.done || count > ck->st.npoints - start)
@@ -911,7 +932,7 @@ vg_status vg_ckpt_append(void *ctx, size_t start, size_t count, const double *me
     if (reserve(ck, count) != 0)
         return vg_error_set(err, VG_ENOMEM, "out of memory writing checkpoint '%s'",
                             ck->metrics_path);
-    encode(ck->buf, metrics, count * VG_N_METRICS);
+    encode(ck, ck->buf, metrics, count);
     e = pwrite_all(ck->fd, ck->buf, (size_t)bytes, (off_t)ck->st.metrics_bytes);
     if (e == 0 && fsync(ck->fd) != 0)
         e = errno;
@@ -970,12 +991,12 @@ vg_status vg_ckpt_replay(vg_ckpt *ck, size_t chunk, volatile sig_atomic_t *stop,
         if (stop && *stop)
             return vg_error_set(err, VG_EINTR, "interrupted while writing the outputs");
         count = n - start < chunk ? n - start : chunk;
-        size_t bytes = count * (size_t)VG_CKPT_POINT_BYTES;
-        int e = pread_all(ck->fd, ck->buf, bytes, (off_t)(start * VG_CKPT_POINT_BYTES));
+        size_t bytes = count * (size_t)ck->st.point_bytes;
+        int e = pread_all(ck->fd, ck->buf, bytes, (off_t)(start * ck->st.point_bytes));
         if (e != 0)
             return io_fail("read", ck->metrics_path, e, err);
         h = vg_ckpt_fnv1a_words(h, ck->buf, bytes);
-        decode(ck->vals, ck->buf, count * VG_N_METRICS);
+        decode(ck, ck->vals, ck->buf, count);
         vg_status st = sink(ctx, start, count, ck->vals, err);
         if (st != VG_OK)
             return st;

@@ -7,9 +7,12 @@
  * and, once every point is there, feeds the writers from it.
  *
  * DIR/.vibrogate-run/ holds two files:
- *   metrics  points 0 .. done-1 in flat order, VG_N_METRICS IEEE 754
- *            binary64 values per point, little-endian whatever the host;
- *            written chunk by chunk and fsynced before the state counts it;
+ *   metrics  points 0 .. done-1 in flat order, one IEEE 754 binary64
+ *            value per stored metric (metric_on) and point, in metric
+ *            order, little-endian whatever the host; written chunk by
+ *            chunk and fsynced before the state counts it (the metrics the
+ *            run does not store are not kept: they come back as VG_FILL,
+ *            which no writer reads);
  *   state    a small text record, replaced atomically (write a temporary
  *            file, fsync, rename) after every chunk: format tag, digest of
  *            everything that determines the output, points done, valid
@@ -34,8 +37,9 @@
 #include "vg_sweep.h"
 
 #define VG_CKPT_DIR ".vibrogate-run"
-/* Bytes one grid point takes in the metrics file. */
-#define VG_CKPT_POINT_BYTES ((uint64_t)VG_N_METRICS * 8u)
+/* Bytes one grid point takes in the metrics file: 8 per stored metric, at
+ * most this. */
+#define VG_CKPT_POINT_BYTES_MAX ((uint64_t)VG_N_METRICS * 8u)
 
 /* FNV-1a, 64 bits (Fowler, Noll and Vo; IETF draft-eastlake-fnv): start
  * from VG_CKPT_FNV_BASIS and fold bytes in with vg_ckpt_fnv1a. */
@@ -82,8 +86,9 @@ typedef struct {
     char *version;           /* program version that made it (owned) */
     size_t npoints;          /* grid points */
     size_t chunk;            /* points per chunk */
+    uint64_t point_bytes;    /* bytes a point takes: 8 per stored metric */
     size_t done;             /* points 0 .. done-1 are in the metrics file */
-    uint64_t metrics_bytes;  /* its valid length, done * VG_CKPT_POINT_BYTES */
+    uint64_t metrics_bytes;  /* its valid length, done * point_bytes */
     uint64_t metrics_fnv;    /* vg_ckpt_fnv1a_words of those bytes */
     char *config_path;       /* config path of the run that started it (owned) */
     char *history;           /* its history line (owned) */

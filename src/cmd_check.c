@@ -80,14 +80,14 @@ static void print_space(const char *dir, double need)
     printf("free disk space for '%s': %s\n", dir, a);
     if (need > avail) {
         vg_fmt_bytes(need, n, sizeof n);
-        fprintf(stderr, "vibrogate: warning: the outputs may need up to %s but only %s are free "
-                "for '%s'\n", n, a, dir);
+        fprintf(stderr, "vibrogate: warning: the outputs and the run's checkpoint may need up to "
+                "%s but only %s are free for '%s'\n", n, a, dir);
     }
 }
 
 static void print_output(const vg_cmd_args *a, const vg_config *cfg)
 {
-    char est[32], lim[32];
+    char est[32], lim[32], ck[32];
     int k = 0;
 
     vg_fmt_bytes(vg_grid_output_bytes(cfg), est, sizeof est);
@@ -100,7 +100,10 @@ static void print_output(const vg_cmd_args *a, const vg_config *cfg)
         if (cfg->metric_on[m])
             printf("%s %s", k++ ? "," : "", vg_metric_get((vg_metric_id)m)->name);
     printf("\nexpected output size: at most %s (limit %s)\n", est, lim);
-    print_space(a->out_dir ? a->out_dir : cfg->out_dir, vg_grid_output_bytes(cfg));
+    vg_fmt_bytes(vg_grid_checkpoint_bytes(cfg), ck, sizeof ck);
+    printf("checkpoint while the run lasts: %s more\n", ck);
+    print_space(a->out_dir ? a->out_dir : cfg->out_dir,
+                vg_grid_output_bytes(cfg) + vg_grid_checkpoint_bytes(cfg));
 }
 
 /* With [model] odorant: which odorant replaces the single mode (whose

@@ -50,21 +50,39 @@ void vg_grid_values(const vg_grid *g, size_t flat, double v[VG_NPARAM])
         v[p] = g->cfg->param[p].v[vg_grid_coord(g, flat, (vg_param_id)p)];
 }
 
+/* Points of cfg's grid and the metrics it stores. */
+static double points_and_metrics(const vg_config *cfg, int *nmet)
+{
+    double points = 1.0;
+
+    for (int p = 0; p < VG_NPARAM; p++)
+        points *= (double)cfg->param[p].n;
+    *nmet = 0;
+    for (int m = 0; m < VG_N_METRICS; m++)
+        *nmet += cfg->metric_on[m] != 0;
+    return points;
+}
+
 /* NetCDF: 8 bytes per stored metric and point (uncompressed upper bound).
  * CSV: at most 24 characters per "%.17g" field plus a separator, for the
  * six parameter columns and each metric. */
 double vg_grid_output_bytes(const vg_config *cfg)
 {
-    double points = 1.0, bytes = 0.0;
-    int p, m, nmet = 0;
+    int nmet;
+    double points = points_and_metrics(cfg, &nmet), bytes = 0.0;
 
-    for (p = 0; p < VG_NPARAM; p++)
-        points *= (double)cfg->param[p].n;
-    for (m = 0; m < VG_N_METRICS; m++)
-        nmet += cfg->metric_on[m] != 0;
     if (cfg->formats & VG_FMT_NETCDF)
         bytes += points * 8.0 * nmet;
     if (cfg->formats & VG_FMT_CSV)
         bytes += points * 25.0 * (VG_NPARAM + nmet);
     return bytes;
+}
+
+/* 8 bytes per stored metric and point (src/checkpoint.h). */
+double vg_grid_checkpoint_bytes(const vg_config *cfg)
+{
+    int nmet;
+    double points = points_and_metrics(cfg, &nmet);
+
+    return points * 8.0 * nmet;
 }

@@ -292,8 +292,9 @@ static vg_ckpt_state sample_state(void)
     s.digest[3] = UINT64_MAX;
     s.npoints = 1000003;
     s.chunk = 65536;
+    s.point_bytes = 7 * 8;
     s.done = 65536 * 7;
-    s.metrics_bytes = (uint64_t)s.done * VG_CKPT_POINT_BYTES;
+    s.metrics_bytes = (uint64_t)s.done * s.point_bytes;
     s.metrics_fnv = UINT64_C(0x00ff00ff00ff00ff);
     s.version = "0.1.0";
     s.config_path = "my configs/demo run.ini";
@@ -430,11 +431,11 @@ static void state_inconsistent_refused(void **state)
     (void)state;
     s = sample_state();
     s.done = s.npoints + 1;
-    s.metrics_bytes = (uint64_t)s.done * VG_CKPT_POINT_BYTES;
+    s.metrics_bytes = (uint64_t)s.done * s.point_bytes;
     expect_refused(&s, "more points are done");
     s = sample_state();
     s.done += 1;
-    s.metrics_bytes = (uint64_t)s.done * VG_CKPT_POINT_BYTES;
+    s.metrics_bytes = (uint64_t)s.done * s.point_bytes;
     expect_refused(&s, "whole number of chunks");
     s = sample_state();
     s.metrics_bytes -= 1;
@@ -442,6 +443,18 @@ static void state_inconsistent_refused(void **state)
     s = sample_state();
     s.chunk = 0;
     expect_refused(&s, "zero");
+    /* 8 bytes for each of 1 to VG_N_METRICS stored metrics, nothing else */
+    for (uint64_t pb = 0; pb <= VG_CKPT_POINT_BYTES_MAX + 8; pb += 4) {
+        s = sample_state();
+        s.point_bytes = pb;
+        s.metrics_bytes = (uint64_t)s.done * pb;
+        if (pb == 0 || pb % 8 != 0 || pb > VG_CKPT_POINT_BYTES_MAX) {
+            expect_refused(&s, "bytes a point takes");
+        } else {
+            vg_error err;
+            assert_int_equal(parse_formatted(&s, &err), VG_OK);
+        }
+    }
     s = sample_state();
     s.temps = ".sweep.nc.Ab12Cd\n../../home/user/thesis.tex";
     expect_refused(&s, "not a writer's");
@@ -451,7 +464,7 @@ static void state_inconsistent_refused(void **state)
     /* the last, partial chunk ends a run */
     s = sample_state();
     s.done = s.npoints;
-    s.metrics_bytes = (uint64_t)s.done * VG_CKPT_POINT_BYTES;
+    s.metrics_bytes = (uint64_t)s.done * s.point_bytes;
     vg_error err;
     assert_int_equal(parse_formatted(&s, &err), VG_OK);
 }
@@ -463,10 +476,10 @@ static void state_other_layout_refused(void **state)
     vg_ckpt_state r;
     vg_error err;
 
-    /* layout 2 -> 3, and a fresh check sum so that only the layout differs */
+    /* layout 3 -> 4, and a fresh check sum so that only the layout differs */
     sp = strchr(t, ' ');
-    assert_int_equal(sp[1], '2');
-    sp[1] = '3';
+    assert_int_equal(sp[1], '3');
+    sp[1] = '4';
     end = strstr(t, "\nend ") + 1;
     snprintf(end, 22, "end %016llx\n",
              (unsigned long long)vg_ckpt_fnv1a(VG_CKPT_FNV_BASIS, t, (size_t)(end - t)));
@@ -771,6 +784,62 @@ static void replay_gives_back_every_bit(void **state)
     free(c);
 }
 
+/* Only the metrics the run stores are kept (in metric order, 8 bytes each),
+ * and a replay gives them back bit for bit with VG_FILL in the others. */
+static void only_stored_metrics_kept(void **state)
+{
+    static const int on[VG_N_METRICS] = {1, 0, 1, 0, 0, 1, 0, 0, 0, 0, 0, 0, 0, 0, 7};
+    static const int cols[] = {0, 2, 5, 14};
+    const size_t ncols = sizeof cols / sizeof *cols;
+    char dir[DIR_LEN], path[PATH_LEN];
+    vg_ckpt_inputs in = base_inputs();
+    vg_ckpt_request rq = request(dir, 0, "2026-01-02T03:04:05Z vibrogate sweep cfg/demo.ini");
+    vg_ckpt *ck;
+    vg_error err;
+    double x[CHUNK * VG_N_METRICS];
+    collector *c = calloc(1, sizeof *c);
+    unsigned char *b;
+    size_t len;
+
+    (void)state;
+    assert_non_null(c);
+    new_dir(dir);
+    in.metric_on = on;
+    assert_int_equal(vg_ckpt_open(&ck, &rq, &in, &err), VG_OK);
+    for (size_t start = 0; start < NPOINTS; start += CHUNK) {
+        size_t count = NPOINTS - start < CHUNK ? NPOINTS - start : CHUNK;
+        fill(x, start, count);
+        assert_int_equal(vg_ckpt_append(ck, start, count, x, &err), VG_OK);
+    }
+    path_in(path, dir, "metrics");
+    b = read_all(path, &len);
+    assert_int_equal(len, (size_t)NPOINTS * ncols * 8);
+    for (size_t p = 0; p < NPOINTS; p++)
+        for (size_t k = 0; k < ncols; k++) {
+            uint64_t u = 0;
+            double v;
+            for (int j = 0; j < 8; j++)
+                u |= (uint64_t)b[(p * ncols + k) * 8 + (size_t)j] << (8 * j);
+            memcpy(&v, &u, sizeof v);
+            assert_true(same_bits(v, value(p, cols[k])));
+        }
+    free(b);
+    assert_int_equal(vg_ckpt_replay(ck, 3, NULL, collect, c, &err), VG_OK);
+    for (size_t p = 0; p < NPOINTS; p++)
+        for (int m = 0; m < VG_N_METRICS; m++)
+            assert_true(same_bits(c->got[p * VG_N_METRICS + (size_t)m],
+                                  on[m] ? value(p, m) : VG_FILL));
+    vg_ckpt_keep(ck);
+    /* resumed with the same metrics it goes on; with all of them it is refused */
+    rq.resume = 1;
+    assert_int_equal(vg_ckpt_open(&ck, &rq, &in, &err), VG_OK);
+    vg_ckpt_keep(ck);
+    in = base_inputs();
+    assert_int_equal(try_resume(dir, &in, &err), VG_EUSAGE);
+    assert_non_null(strstr(err.msg, "different config"));
+    free(c);
+}
+
 static void temps_removed_on_resume(void **state)
 {
     char dir[DIR_LEN], t1[PATH_LEN], t2[PATH_LEN], keep[PATH_LEN];
@@ -843,6 +912,7 @@ int main(void)
         cmocka_unit_test(damaged_state_refused),
         cmocka_unit_test(second_run_locked_out),
         cmocka_unit_test(replay_gives_back_every_bit),
+        cmocka_unit_test(only_stored_metrics_kept),
         cmocka_unit_test(temps_removed_on_resume),
         cmocka_unit_test(discard_removes_everything),
     };

@@ -74,7 +74,7 @@ fi
     --set 'parameters.mode=2950 cm-1' --set 'parameters.electronic_coupling=1 meV' \
     --set 'output.figures=none' --set 'output.max_size=1000 TB' >"$T/out" 2>"$T/err"
 avail=$(df -P -B1 "$T" | awk 'NR == 2 { print $4 }')
-if grep -q "free disk space for '$T/big'" "$T/out" && { [ "$avail" -gt 500000000000000 ] || grep -q 'warning: the outputs may need up to' "$T/err"; }; then
+if grep -q "free disk space for '$T/big'" "$T/out" && { [ "$avail" -gt 500000000000000 ] || grep -q "warning: the outputs and the run's checkpoint may need up to" "$T/err"; }; then
     pass "check reports free disk space and warns when the outputs may not fit"
 else
     fail "check disk-space warning" "$(cat "$T/out" "$T/err" | tail -3)"

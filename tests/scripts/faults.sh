@@ -85,8 +85,8 @@ EOF
 }
 
 # The second run's values (different from the earlier run's); BIG also
-# makes the checkpoint (8 bytes per metric a point, 120 bytes) larger than
-# the space left.
+# makes the checkpoint (8 bytes per stored metric a point: 56 bytes for the
+# 7 this config stores) larger than the space left.
 OTHER='parameters.gap=0 .. 500 meV, 11 points'
 BIG='parameters.gap=0 .. 600 meV, 300 points' # 2100 points
 
@@ -234,14 +234,15 @@ then_resume() {
     resumed "$1" "$d" "$T/ref-big/sweep.csv" --set "$BIG" --chunk 256
 }
 
-# Full disk while computing: 16 pages free, the checkpoint of BIG needs 62
-# (2100 points of VG_N_METRICS = 15 doubles).
+# Full disk while computing: 16 pages free, the checkpoint of BIG needs 29
+# (2100 points of 7 doubles).
 ns_full_compute() {
     full_big full1 16 "full disk while computing" && then_resume "full disk while computing"
 }
 
 # Full disk while the data files are written: 72 pages free hold the
-# checkpoint (62 and its record) but not sweep.csv of BIG (about 100).
+# checkpoint (29 and its record) and sweep.nc but not sweep.csv of BIG
+# (about 100).
 ns_full_write() {
     name="full disk while writing the data files"
     full_big full2 72 "$name" || return

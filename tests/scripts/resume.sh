@@ -178,6 +178,27 @@ check "kill -9 once $target points were done: the checkpoint holds some but not 
 check "  and a whole number of chunks" "$([ $((${done2:-1} % CHUNK)) -eq 0 ]; echo $?)" "$done2"
 final=$(ls "$OUT" 2>/dev/null | grep -e '^sweep\.csv$' -e '^sweep\.nc$' | tr '\n' ' ')
 check "  and no file under a final name" "$([ -z "$final" ]; echo $?)" "$final"
+# The checkpoint holds 8 bytes per stored metric and point (src/checkpoint.h):
+# the metrics `check` lists, for the points done (a chunk more when the kill
+# fell between its write and its record); `check` predicts the whole.
+"$VG" check "$CFG" --out "$OUT" --set "$GRID" --set 'output.figures=none' >"$T/chk" 2>&1
+nmet=$(sed -n 's/^metrics: //p' "$T/chk" | tr ',' '\n' | grep -c .)
+size=$(stat -c %s "$OUT/.vibrogate-run/metrics")
+check "  and the metrics file holds 8 bytes for each of the $nmet stored metrics of each point done" \
+    "$([ "$nmet" -ge 1 ] && { [ "$size" -eq $((${done2:-0} * 8 * nmet)) ] ||
+        [ "$size" -eq $(((${done2:-0} + CHUNK) * 8 * nmet)) ]; }; echo $?)" \
+    "$size bytes for $done2 points of $nmet metrics"
+want=$("$PY" -c "
+n = $NPOINTS * 8 * $nmet
+u = ['bytes', 'kB', 'MB', 'GB']
+i = 0
+while n >= 1000 and i < 3:
+    n /= 1000
+    i += 1
+print('%.3g %s' % (n, u[i]))")
+check "  and check predicted the checkpoint of the whole run ($want)" \
+    "$(grep -qx "checkpoint while the run lasts: $want more" "$T/chk"; echo $?)" \
+    "$(grep checkpoint "$T/chk")"
 cp "$OUT/.vibrogate-run/state" "$T/state.before"
 
 # A changed --set is refused, and nothing changes.
