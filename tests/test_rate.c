@@ -854,6 +854,41 @@ static void test_gap_run_stops_at_bad_gap(void **state)
     assert_int_equal(done, 0);
 }
 
+/* The same where the run is whole groups of four gaps, which the kernel
+ * reads in place after one test of all of them (src/rate.c, all_finite):
+ * +inf, -inf or NaN at the first, a middle or the last position stops the
+ * run there, with the points before it those of single evaluations. */
+static void test_gap_whole_groups_stop_at_bad_gap(void **state)
+{
+    static const int at[] = {0, 5, 15};
+    const double bad[] = {INFINITY, -INFINITY, NAN};
+    double gaps[16], arr[9][16];
+    vg_rate_row row = {0};
+    vg_error err = {VG_OK, ""};
+    vg_rate_mode m = mode_of(VG_STATS_THERMAL, 0.385, 200.0, 298.15);
+    vg_rates_run run = {arr[0], arr[1], arr[2], arr[3], arr[4], arr[5], arr[6], arr[7], arr[8],
+                        0, 0};
+
+    (void)state;
+    assert_int_equal(vg_rate_row_begin(&row, &m, 120.0, 1.0, NULL), VG_OK);
+    for (size_t b = 0; b < sizeof bad / sizeof *bad; b++)
+        for (size_t k = 0; k < sizeof at / sizeof *at; k++) {
+            size_t done = 99;
+            for (int i = 0; i < 16; i++)
+                gaps[i] = 12.5 * i;
+            gaps[at[k]] = bad[b];
+            assert_fails(vg_rate_eval_gaps_run(&m, &row, 16, gaps, TIGHT, &run, &done, &err),
+                         &err, "'gap'");
+            assert_int_equal(done, (size_t)at[k]);
+            for (int i = 0; i < at[k]; i++) {
+                vg_rates one = eval_at(&m, gaps[i], 120.0, 1.0, TIGHT), got;
+                vg_rates_run_get(&run, (size_t)i, &got);
+                assert_memory_equal(&got.ln_k_total, &one.ln_k_total, sizeof(double));
+                assert_memory_equal(&got.ln_fc_assisted, &one.ln_fc_assisted, sizeof(double));
+            }
+        }
+}
+
 /* vg_metrics_compute_run gives, point for point, the bits of
  * vg_metrics_compute_full on the points' records: the usual case and every
  * other (V = 0, S = 0, the heavy track, validity values, conditions), with
@@ -960,6 +995,7 @@ int main(void)
         cmocka_unit_test(test_batch),
         cmocka_unit_test(test_gap_runs_match_points),
         cmocka_unit_test(test_gap_run_stops_at_bad_gap),
+        cmocka_unit_test(test_gap_whole_groups_stop_at_bad_gap),
         cmocka_unit_test(test_metrics_run_match_records),
     };
 

@@ -286,6 +286,37 @@ ns_full_figures() {
     fi
 }
 
+# check counts the checkpoint beside the outputs: on a tmpfs of 64 pages
+# (262144 bytes, all free), a NetCDF-only grid of 3000 points stores 7
+# metrics, 168000 bytes at most in sweep.nc (8 bytes a value) and as many in
+# the checkpoint while the run lasts (docs/config.md): the outputs alone
+# would fit, the two together do not, and check must warn; 1000 points
+# (112000 bytes in all) fit, and it must not.
+ns_check_space() {
+    d="$T/space"
+    if ! { mkdir "$d" && mount -t tmpfs -o size=262144 tmpfs "$d"; }; then
+        fail "check counts the checkpoint" "no tmpfs"
+        return
+    fi
+    for n in 3000 1000; do
+        "$VG" check "$CFG" --out "$d" --set "parameters.gap=0 .. 600 meV, $n points" \
+            --set 'parameters.reorganization=100 meV' --set 'output.data=netcdf' \
+            --set 'output.figures=none' \
+            >"$T/out" 2>"$T/err"
+        got=$?
+        warned=0
+        grep -q "warning: the outputs and the run's checkpoint may need up to" "$T/err" && warned=1
+        if [ "$n" -eq 3000 ] && [ "$got" -eq 0 ] && [ "$warned" -eq 1 ] &&
+            grep -qx 'checkpoint while the run lasts: 168 kB more' "$T/out"; then
+            pass "check warns when outputs and checkpoint together exceed the free space (3000 points, 262 kB free)"
+        elif [ "$n" -eq 1000 ] && [ "$got" -eq 0 ] && [ "$warned" -eq 0 ]; then
+            pass "check does not warn when both fit (1000 points, 262 kB free)"
+        else
+            fail "check and the checkpoint's space ($n points)" "exit $got: $(cat "$T/out" "$T/err" | tail -4)"
+        fi
+    done
+}
+
 # The disk filling at every stage: the BIG sweep (checkpoint, data files,
 # figures) on a tmpfs with 30, 35, ... 200 pages free, so that the space
 # runs out at many different places inside the writers (one fixed size can
@@ -417,6 +448,7 @@ if [ "$can_mount" -eq 1 ]; then
     in_ns full_compute
     in_ns full_write
     in_ns full_figures
+    in_ns check_space
     grep -v -e ' sweep\.nc$' -e ' sweep\.csv$' "$T/stage.sum" >"$T/maps.sum"
     in_ns full_scan
 else
