@@ -67,12 +67,34 @@ uint64_t vg_ckpt_fnv1a(uint64_t h, const void *data, size_t len)
     return h;
 }
 
+/* 8 bytes as a little-endian integer, and back (a copy on little-endian
+ * hosts, where the compiler does not merge the byte loops by itself). */
+static inline uint64_t le64(const unsigned char *p)
+{
+    uint64_t w = 0;
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    memcpy(&w, p, sizeof w);
+#else
+    for (int b = 8; b-- > 0;)
+        w = w << 8 | p[b];
+#endif
+    return w;
+}
+
+static inline void put_le64(unsigned char *p, uint64_t w)
+{
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+    memcpy(p, &w, sizeof w);
+#else
+    for (int b = 0; b < 8; b++)
+        p[b] = (unsigned char)(w >> (8 * b));
+#endif
+}
+
 uint64_t vg_ckpt_fnv1a_words(uint64_t h, const unsigned char *data, size_t len)
 {
     for (size_t i = 0; i + 8 <= len; i += 8) {
-        uint64_t w = 0;
-        for (int b = 8; b-- > 0;)
-            w = w << 8 | data[i + (size_t)b];
+        uint64_t w = le64(data + i);
         h ^= w;
         h *= VG_CKPT_FNV_PRIME;
     }
@@ -84,8 +106,7 @@ static uint64_t fold_u64(uint64_t h, uint64_t x)
 {
     unsigned char b[8];
 
-    for (int i = 0; i < 8; i++)
-        b[i] = (unsigned char)(x >> (8 * i));
+    put_le64(b, x);
     return vg_ckpt_fnv1a(h, b, sizeof b);
 }
 
@@ -528,8 +549,7 @@ static void encode(const vg_ckpt *ck, unsigned char *out, const double *x, size_
         for (size_t c = 0; c < ck->ncols; c++, out += 8) {
             uint64_t u;
             memcpy(&u, &x[ck->col[c]], sizeof u);
-            for (int b = 0; b < 8; b++)
-                out[b] = (unsigned char)(u >> (8 * b));
+            put_le64(out, u);
         }
 }
 
@@ -538,9 +558,7 @@ static void decode(const vg_ckpt *ck, double *x, const unsigned char *in, size_t
 {
     for (size_t i = 0; i < n; i++, x += VG_N_METRICS)
         for (size_t c = 0; c < ck->ncols; c++, in += 8) {
-            uint64_t u = 0;
-            for (int b = 8; b-- > 0;)
-                u = u << 8 | in[b];
+            uint64_t u = le64(in);
             memcpy(&x[ck->col[c]], &u, sizeof u);
         }
 }
