@@ -1445,7 +1445,8 @@ static vg_status eval_gaps(vg_rate_mode *m, vg_rate_row *row, size_t n, const do
         double g[GROUPS * LANES];
         const double *gp = gap_meV + j; /* whole groups of finite gaps: read in place */
         vg_status st = VG_OK;
-        if (!all_finite(gap_meV + j, nl) || nl % LANES != 0) { /* else a copy, the last group padded with its last gap */
+        /* else a copy, the last group padded with its last gap */
+        if (nl % LANES != 0 || !all_finite(gap_meV + j, nl)) {
             for (size_t i = 0; i < nl; i++)
                 if (!isfinite(g[i] = gap_meV[j + i]) && good == nl)
                     good = i;
