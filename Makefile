@@ -45,13 +45,20 @@ else
 B         := build
 endif
 # The baseline build: the rate kernel's vector lanes compiled for baseline
-# x86-64 only (no AVX2 version chosen at run time), in a directory of its
+# x86-64 only (no AVX2 or AVX-512 version chosen at run time), in a directory of its
 # own.  tests/scripts/lanes.sh compares its output with the normal build's
 # bit for bit; tests/scripts/valgrind.sh memchecks it (valgrind 3.19 does
 # not decode every AVX2 instruction GCC emits).
 ifeq ($(BASELINE)$(MPI),10)
 LANEFLAGS := -DVG_NO_CLONES
 B         := build-base
+endif
+# The AVX2 build: the lanes' AVX2 and baseline versions only (no x86-64-v4
+# one), so that tests/scripts/lanes.sh can compare the AVX2 version with the
+# baseline build on a CPU with AVX-512 too.
+ifeq ($(AVX2)$(BASELINE)$(MPI),10)
+LANEFLAGS := -DVG_NO_V4_CLONE
+B         := build-avx2
 endif
 # The sanitizer build (tests/hardening.mk): AddressSanitizer and UBSan,
 # halting on the first error, in a directory of its own.  MPI=1 ignores it.

@@ -6,7 +6,7 @@
  * form except as a ratio to the largest term of a sum.
  *
  * Pure: no I/O, no allocation, no static state (the loader's choice of the
- * lanes' build, AVX2 or baseline, is made once at start-up).  GSL reports an underflow of
+ * lanes' build, AVX-512, AVX2 or baseline, is made once at start-up).  GSL reports an underflow of
  * gsl_sf_bessel_In_scaled_e through its status (which is checked and answered
  * by the asymptotic branch), so the caller must have switched GSL's abort
  * handler off (main calls gsl_set_error_handler_off() once).
@@ -653,7 +653,8 @@ static int rates_valid(const vg_rates *r, int coupling_zero, int assisted_zero)
  * the same code with its gap in every lane, and vg_rate_eval,
  * vg_rate_eval_row and vg_rate_eval_gaps agree bit for bit.  Lanes go
  * together only when each would walk to the same peak alone (lanes_reach)
- * and so take the same window; otherwise each lane is taken alone.
+ * and so take the same window; otherwise lanes_again takes the group again
+ * as two groups, and lane by lane where those still disagree.
  *
  * The path declines a point (the log path above takes it) when a factor
  * leaves [e^-LIN_LIMIT, e^LIN_LIMIT] (so that no product can overflow), when
@@ -666,7 +667,7 @@ static int rates_valid(const vg_rates *r, int coupling_zero, int assisted_zero)
 #define ALL_LANES ((1 << LANES) - 1)
 
 /* Every function that takes or returns a vector is always inlined: a call
- * between the AVX2 build and a baseline one would pass the vector in
+ * between the AVX2 (or AVX-512) build and a baseline one would pass the vector in
  * different places (the ABI change GCC warns about, silenced here because
  * no such call exists). */
 #pragma GCC diagnostic ignored "-Wpsabi"
@@ -674,14 +675,20 @@ typedef double vd __attribute__((vector_size(8 * LANES)));
 typedef long long vi __attribute__((vector_size(8 * LANES)));
 typedef unsigned long long vu __attribute__((vector_size(8 * LANES)));
 
-/* The lanes' code is built twice, for AVX2 and for baseline x86-64, and the
- * one the CPU supports is chosen when the program starts.  Both run the same
- * IEEE operations in the same order (no fused multiply-add: the Makefile
- * passes -ffp-contract=off), so they give the same bits;
- * tests/scripts/lanes.sh compares the baseline-only build (make BASELINE=1)
- * with the usual one. */
+/* The lanes' code is built three times, for x86-64-v4 (AVX-512, still four
+ * lanes: its compare masks and 32 registers took 0.97 of the AVX2 version's
+ * time), for AVX2 and for baseline x86-64, and the best one the CPU
+ * supports is chosen when the program starts.  All run the same IEEE
+ * operations in the same order (no fused multiply-add: the Makefile passes
+ * -ffp-contract=off), so they give the same bits; tests/scripts/lanes.sh
+ * compares the usual build and the one without the x86-64-v4 version (make
+ * AVX2=1) with the baseline-only build (make BASELINE=1). */
 #if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__) && !defined(VG_NO_CLONES)
+#ifdef VG_NO_V4_CLONE
 #define VG_LANES_CLONES __attribute__((target_clones("avx2", "default")))
+#else
+#define VG_LANES_CLONES __attribute__((target_clones("arch=x86-64-v4", "avx2", "default")))
+#endif
 #else
 #define VG_LANES_CLONES
 #endif
@@ -979,16 +986,19 @@ typedef struct {
  * the walks in the linear range and non-increasing (so that q_n A_i falls
  * through 1 once), and p a peak for every lane (q_p A_i <= 1, and
  * q_{p-1} A_i > 1 unless p is the lowest channel).  ps holds the q of the
- * last peak tested, which is usually p again. */
+ * last peak tested, which is usually p again.  *miss: the lanes that
+ * would not reach p (bit i: lane i), all of them when a check of the
+ * whole group fails. */
 static inline __attribute__((always_inline)) int lanes_reach(vg_rate_mode *m, vg_rate_row *row,
                                                               long nmin, long p, long gmin,
                                                               long gmax, const vd *Ap,
-                                                              peak_steps *ps)
+                                                              peak_steps *ps, int *miss)
 {
     vd A = *Ap;
     long lo = gmin < p - 1 ? gmin : p - 1, hi = gmax > p ? gmax : p;
     vi bad;
 
+    *miss = ALL_LANES;
     if (gmax - p >= PEAK_WALK || p - gmin >= PEAK_WALK)
         return 0;
     lo = lo < nmin ? nmin : lo;
@@ -1006,7 +1016,8 @@ static inline __attribute__((always_inline)) int lanes_reach(vg_rate_mode *m, vg
     bad = vgt(vsplat(ps->q) * A, vsplat(1.0));
     if (p > nmin)
         bad |= ~vgt(vsplat(ps->qm) * A, vsplat(1.0));
-    return lane_bits(bad) == 0;
+    *miss = lane_bits(bad);
+    return *miss == 0;
 }
 
 /* q_n and 1/q_n for n in [lo, hi) in the row's window buffer; 0 if a step
@@ -1044,22 +1055,24 @@ typedef struct {
 } lanes_out;
 
 /* What a group needs after the window path (win_run's mask[j]). */
-#define LANES_ALONE (-1) /* the lanes must each be taken alone */
+#define LANES_ALONE (-1) /* the lanes cannot go together (lanes_again) */
 #define LANES_PENDING 32  /* (inside win_run) the window path goes on */
 
 /* Rates of ng groups of LANES gaps g[LANES j ..] by the window path, into
- * o[j].  mask[j] is LANES_ALONE when the lanes of group j must be taken
- * alone (they are not eligible alike, or would not all walk to the same
+ * o[j].  mask[j] is LANES_ALONE when the lanes of group j cannot go
+ * together (they are not eligible alike, or would not all walk to the same
  * peak), else a bit mask of the lanes the log path must take (bit i: lane
  * i; ALL_LANES: all).  Every lane the log path does not take is complete,
  * prefactor included; bit i of fin[j] is set where lane i's eight logs
- * are finite.  With dst, the first nfull groups go into dst's arrays from
+ * are finite.  Where mask[j] is LANES_ALONE, reach[j] has the bits of the
+ * lanes that would walk to lane 0's peak (lane 0 among them), or is 0 when
+ * that is not known.  With dst, the first nfull groups go into dst's arrays from
  * element i0 (group j at i0 + LANES j) instead of o[j], whose rate fields
  * they leave unset; the lanes the log path must take are stored too, to be
  * overwritten.  Returns the number of groups the caller has still to look
  * at: those not stored in dst, and those with a lane to take again. */
 static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, const double *g,
-                                   double tol, lanes_out *o, int *mask, int *fin,
+                                   double tol, lanes_out *o, int *mask, int *fin, int *reach,
                                    vg_rates_run *dst, size_t i0, int nfull)
 {
     long nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
@@ -1075,7 +1088,7 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
     const double S = m->S, mode = m->mode;
     const int coupling_zero = row->coupling == 0.0;
     peak_steps ps = {nmin - 1, 0.0, 0.0, 0};
-    int k, rest = 0;
+    int k, miss, rest = 0;
 
     if (row->win_tol != tol) {
         row->win_tol = tol;
@@ -1094,6 +1107,7 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
         o[j].bare = (-d[j] * d[j]) * inv4lkt;
         o[j].elastic = vsplat(lw0) + o[j].bare;
         o[j].lo = o[j].hi = o[j].p = 0;
+        reach[j] = 0;
         in = vle(vabs(ln_a), lim) & vle(vabs(centre), vsplat((double)CHANNEL_LIMIT));
         A[j] = vexp(vsel(in, ln_a, vsplat(0.0)));
         Ai[j] = one / A[j];
@@ -1136,13 +1150,14 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
         /* the last group's peak if every lane would reach it, else lane 0's
          * walk (for a point alone, the walk is the definition) */
         if (single || !row->p_set
-            || !lanes_reach(m, row, nmin, row->p_prev, gmin[j], gmax[j], &A[j], &ps)) {
+            || !lanes_reach(m, row, nmin, row->p_prev, gmin[j], gmax[j], &A[j], &ps, &miss)) {
             if (!lin_peak(m, row, nmin, g0[j], A[j][0], &p)) {
                 mask[j] = single ? ALL_LANES : LANES_ALONE;
                 continue;
             }
-            if (!single && !lanes_reach(m, row, nmin, p, gmin[j], gmax[j], &A[j], &ps)) {
+            if (!single && !lanes_reach(m, row, nmin, p, gmin[j], gmax[j], &A[j], &ps, &miss)) {
                 mask[j] = LANES_ALONE;
+                reach[j] = ALL_LANES & ~miss; /* lane 0's among them, unless miss is all */
                 continue;
             }
             row->p_prev = p;
@@ -1206,8 +1221,10 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
             ka = lnp + assisted;
             kt = lnp + total;
         }
-        sum = o[j].bare + o[j].elastic + assisted + total + kb + ke + ka + kt;
-        fin[j] = lane_bits(sum - sum == vsplat(0.0)); /* finite (NaN and +-inf give NaN) */
+        /* finite (NaN and +-inf give NaN); summed as a tree, so that the
+         * logs are not followed by a chain of seven additions */
+        sum = ((o[j].bare + o[j].elastic) + (assisted + total)) + ((kb + ke) + (ka + kt));
+        fin[j] = lane_bits(sum - sum == vsplat(0.0));
         rest += !(dst && j < nfull) || mask[j] != 0 || fin[j] != ALL_LANES;
         if (dst && j < nfull) { /* a whole group of a run: straight into its arrays */
             size_t at = i0 + (size_t)(LANES * j);
@@ -1340,6 +1357,56 @@ static inline void run_lanes(vg_rates_run *r, size_t i0, const lanes_out *o, int
     }
 }
 
+/* The lanes [0, nj) of a group gj whose lanes cannot go together, taken
+ * again by win_run into oa (room for 2 + LANES groups): lane l's results
+ * are lane la_of[l] of group ga_of[l].  The lanes in reach (those that walk
+ * to lane 0's peak) go as one group and the others as a second; a group
+ * that still cannot go together, and every lane when reach does not split
+ * the group, goes lane by lane, its gap in every lane of a group.  Lanes
+ * are independent, so a lane's results are the same in any group. */
+static void lanes_again(vg_rate_mode *m, vg_rate_row *row, const double *gj, int nj, int reach,
+                        double tol, lanes_out *oa, int *ma, int *fa, int *ra, int *ga_of,
+                        int *la_of)
+{
+    double ga[(2 + LANES) * LANES];
+    int all = (1 << nj) - 1, left = all, n1 = 0;
+
+    reach &= all;
+    if ((reach & 1) && reach != all) { /* two groups: the lanes in reach, the others */
+        int sets[2] = {reach, all & ~reach};
+        for (int k = 0; k < 2; k++) {
+            int first = __builtin_ctz((unsigned)sets[k]);
+            for (int l = 0; l < LANES; l++)
+                ga[LANES * k + l] = gj[l < nj && (sets[k] >> l & 1) ? l : first];
+        }
+        win_run(m, row, 2, ga, tol, oa, ma, fa, ra, NULL, 0, 0);
+        for (int k = 0; k < 2; k++) {
+            if (ma[k] == LANES_ALONE)
+                continue;
+            for (int l = 0; l < nj; l++)
+                if (sets[k] >> l & 1) {
+                    ga_of[l] = k;
+                    la_of[l] = l;
+                }
+            left &= ~sets[k];
+        }
+        n1 = 2;
+    }
+    if (left != 0) { /* lane by lane */
+        int n = 0;
+        for (int l = 0; l < nj; l++) {
+            if (!(left >> l & 1))
+                continue;
+            for (int l2 = 0; l2 < LANES; l2++)
+                ga[LANES * (n1 + n) + l2] = gj[l];
+            ga_of[l] = n1 + n++;
+            la_of[l] = 0;
+        }
+        win_run(m, row, n, ga + LANES * n1, tol, oa + n1, ma + n1, fa + n1, ra + n1, NULL, 0,
+                0);
+    }
+}
+
 /* ng groups of LANES gaps g[0 .. LANES ng) of a row (ng <= GROUPS), of which
  * the first nl are points, into records out[0..nl) or, with run != NULL,
  * into its arrays from element i0; *done: how many leading ones succeeded. */
@@ -1347,13 +1414,14 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
                           double tol, vg_rates *out, vg_rates_run *run, size_t i0,
                           size_t *done, vg_error *err)
 {
-    lanes_out o[GROUPS], oa[LANES];
-    int mask[GROUPS], ma[LANES], fin[GROUPS], fa[LANES];
+    lanes_out o[GROUPS], oa[2 + LANES];
+    int mask[GROUPS], ma[2 + LANES], fin[GROUPS], fa[2 + LANES], reach[GROUPS], ra[2 + LANES];
+    int ga_of[LANES], la_of[LANES]; /* a lane taken again: its group in oa and lane there */
     int cz = row->coupling == 0.0, az = m->S == 0.0;
     int nfull = run ? nl / LANES : 0; /* groups win_run stores in the arrays itself */
 
     *done = (size_t)nl;
-    if (win_run(m, row, ng, g, tol, o, mask, fin, run, i0, nfull) == 0)
+    if (win_run(m, row, ng, g, tol, o, mask, fin, reach, run, i0, nfull) == 0)
         return VG_OK; /* the usual case: every point complete and in the arrays */
     for (int j = 0; j * LANES < nl; j++) {
         int nj = nl - j * LANES < LANES ? nl - j * LANES : LANES;
@@ -1362,20 +1430,15 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
                 run_lanes(run, i0 + (size_t)(j * LANES), &o[j], nj);
             continue;
         }
-        if (mask[j] == LANES_ALONE) { /* each lane's gap in every lane of a group, one call */
-            double ga[LANES * LANES];
-            for (int l = 0; l < nj; l++)
-                for (int l2 = 0; l2 < LANES; l2++)
-                    ga[LANES * l + l2] = g[j * LANES + l];
-            win_run(m, row, nj, ga, tol, oa, ma, fa, NULL, 0, 0);
-        }
+        if (mask[j] == LANES_ALONE)
+            lanes_again(m, row, g + j * LANES, nj, reach[j], tol, oa, ma, fa, ra, ga_of, la_of);
         for (int l = 0; l < nj; l++) {
             int i = j * LANES + l, log_path, finite;
             vg_rates rec, *r = run ? &rec : &out[i];
             if (mask[j] == LANES_ALONE) {
-                lane_store(&oa[l], 0, cz, az, r);
-                log_path = ma[l] & 1;
-                finite = fa[l] & 1;
+                lane_store(&oa[ga_of[l]], la_of[l], cz, az, r);
+                log_path = (ma[ga_of[l]] >> la_of[l]) & 1;
+                finite = (fa[ga_of[l]] >> la_of[l]) & 1;
             } else {
                 if (j < nfull)
                     vg_rates_run_get(run, i0 + (size_t)i, r);

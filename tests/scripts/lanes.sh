@@ -1,9 +1,12 @@
 #!/bin/sh
-# The rate kernel's vector lanes, built two ways: the normal build, which
-# chooses its AVX2 version at start-up where the CPU has AVX2, against the
-# baseline build (make BASELINE=1: baseline x86-64 only, build-base/).  The
-# two run the same IEEE operations in the same order (no fused
-# multiply-add), so every sweep below must give byte-identical CSV files:
+# The rate kernel's vector lanes, built three ways: the normal build, which
+# chooses at start-up its x86-64-v4 (AVX-512) version where the CPU has
+# AVX-512 and its AVX2 version where it has AVX2; the AVX2 build (make
+# AVX2=1, build-avx2/: the AVX2 and baseline versions only, so that a CPU
+# with AVX-512 runs the AVX2 one too); and the baseline build (make
+# BASELINE=1: baseline x86-64 only, build-base/).  All run the same IEEE
+# operations in the same order (no fused multiply-add), so the first two
+# must each give, against the baseline build, byte-identical CSV files:
 # thermal and frozen statistics, an isotope pair, validity criteria, a
 # grid with one gap (one point a row), and extreme
 # corners where the lanes hand points to the log path.  It also runs the
@@ -24,16 +27,27 @@ case "$B" in /*) N="$B" ;; *) N="$SRC/$B" ;; esac
 T=$(mktemp -d)
 trap 'rm -rf "$T"' EXIT
 
-if make -s BASELINE=1 all build-base/tests/rate_dump >"$T/make.log" 2>&1; then
-    pass "the baseline build (make BASELINE=1) builds"
+for v in BASELINE:base AVX2:avx2; do
+    if make -s "${v%%:*}=1" all "build-${v#*:}/tests/rate_dump" >"$T/make.log" 2>&1; then
+        pass "the ${v#*:} build (make ${v%%:*}=1) builds"
+    else
+        fail "the ${v#*:} build (make ${v%%:*}=1) builds" "$(tail -n 3 "$T/make.log")"
+        exit 1
+    fi
+done
+# what the CPU runs (x86-64-v4 needs AVX-512 F, BW, CD, DQ and VL)
+flags=$(grep -m 1 '^flags' /proc/cpuinfo 2>/dev/null)
+v4=yes
+for f in avx512f avx512bw avx512cd avx512dq avx512vl; do
+    case " $flags " in *" $f "*) ;; *) v4=no ;; esac
+done
+case " $flags " in *" avx2 "*) avx2=yes ;; *) avx2=no ;; esac
+if [ $v4 = yes ]; then
+    echo "note: this CPU has AVX-512: the normal build runs the x86-64-v4 version, the AVX2 build the AVX2 one"
+elif [ $avx2 = yes ]; then
+    echo "note: this CPU has AVX2 but not AVX-512: the normal and AVX2 builds both run the AVX2 version"
 else
-    fail "the baseline build (make BASELINE=1) builds" "$(tail -n 3 "$T/make.log")"
-    exit 1
-fi
-if grep -qw avx2 /proc/cpuinfo 2>/dev/null; then
-    echo "note: this CPU has AVX2: the normal build runs the AVX2 version"
-else
-    echo "note: this CPU has no AVX2: both builds run the baseline version"
+    echo "note: this CPU has no AVX2: every build runs the baseline version"
 fi
 
 # name, then the config's [parameters] and [model]/[isotope]/[validity] text
@@ -103,22 +117,35 @@ temperature = 1, 5000 K
 data = csv
 INI
 
-for c in thermal frozen isotope gapslow extreme; do
-    mkdir -p "$T/$c.n" "$T/$c.b"
-    if ! "$N/vibrogate" sweep "$T/$c.ini" -q -o "$T/$c.n" >"$T/$c.n.log" 2>&1; then
-        fail "$c: sweep (normal build)" "$(tail -n 2 "$T/$c.n.log")"
-        continue
-    fi
-    if ! "$SRC/build-base/vibrogate" sweep "$T/$c.ini" -q -o "$T/$c.b" >"$T/$c.b.log" 2>&1; then
-        fail "$c: sweep (baseline build)" "$(tail -n 2 "$T/$c.b.log")"
-        continue
-    fi
-    if cmp -s "$T/$c.n/sweep.csv" "$T/$c.b/sweep.csv"; then
-        pass "$c: sweep.csv byte-identical from both builds ($(($(wc -l <"$T/$c.n/sweep.csv") - 1)) points)"
+# $1: name of the build, $2: its directory; each case and the dump against
+# the baseline build
+compare_build() {
+    for c in thermal frozen isotope gapslow extreme; do
+        mkdir -p "$T/$c.$1" "$T/$c.b"
+        if ! "$2/vibrogate" sweep "$T/$c.ini" -q -o "$T/$c.$1" >"$T/$c.$1.log" 2>&1; then
+            fail "$c: sweep ($1 build)" "$(tail -n 2 "$T/$c.$1.log")"
+            continue
+        fi
+        if [ ! -s "$T/$c.b/sweep.csv" ] \
+            && ! "$SRC/build-base/vibrogate" sweep "$T/$c.ini" -q -o "$T/$c.b" >"$T/$c.b.log" 2>&1; then
+            fail "$c: sweep (baseline build)" "$(tail -n 2 "$T/$c.b.log")"
+            continue
+        fi
+        if cmp -s "$T/$c.$1/sweep.csv" "$T/$c.b/sweep.csv"; then
+            pass "$c: sweep.csv of the $1 and baseline builds byte-identical ($(($(wc -l <"$T/$c.$1/sweep.csv") - 1)) points)"
+        else
+            fail "$c: sweep.csv of the $1 and baseline builds byte-identical" "$(cmp "$T/$c.$1/sweep.csv" "$T/$c.b/sweep.csv" 2>&1 | head -n 1)"
+        fi
+    done
+    "$2/tests/rate_dump" <"$T/points" >"$T/dump.$1" 2>&1
+    [ -s "$T/dump.b" ] || "$SRC/build-base/tests/rate_dump" <"$T/points" >"$T/dump.b" 2>&1
+    if [ -s "$T/dump.$1" ] && cmp -s "$T/dump.$1" "$T/dump.b"; then
+        pass "rate_dump: 4000 random points, every field of the $1 and baseline builds byte-identical"
     else
-        fail "$c: sweep.csv byte-identical from both builds" "$(cmp "$T/$c.n/sweep.csv" "$T/$c.b/sweep.csv" 2>&1 | head -n 1)"
+        fail "rate_dump: 4000 random points, the $1 and baseline builds byte-identical" \
+             "$(cmp "$T/dump.$1" "$T/dump.b" 2>&1 | head -n 1)"
     fi
-done
+}
 
 # rate_dump on 4000 random single points (fixed seed; the single-point path
 # puts one gap in every lane), log-uniform over the accepted ranges
@@ -130,11 +157,5 @@ awk 'BEGIN { srand(20261202);
         s = rand() < 0.05 ? 0 : 10 ^ (-3 + 4 * rand());
         mode = 10 ^ (0.5 + 2.5 * rand()); t = 10 ^ (0.3 + 3 * rand());
         printf "%s %.9g %.9g %.9g %.9g %.9g %.9g\n", st, gap, lam, v, s, mode, t } }' >"$T/points"
-"$N/tests/rate_dump" <"$T/points" >"$T/dump.n" 2>&1
-"$SRC/build-base/tests/rate_dump" <"$T/points" >"$T/dump.b" 2>&1
-if [ -s "$T/dump.n" ] && cmp -s "$T/dump.n" "$T/dump.b"; then
-    pass "rate_dump: 4000 random points, every field byte-identical from both builds"
-else
-    fail "rate_dump: 4000 random points byte-identical from both builds" \
-         "$(cmp "$T/dump.n" "$T/dump.b" 2>&1 | head -n 1)"
-fi
+compare_build normal "$N"
+compare_build AVX2 "$SRC/build-avx2"
