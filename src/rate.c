@@ -1077,7 +1077,8 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
 {
     long nmin = m->stats == VG_STATS_FROZEN ? 0 : -CHANNEL_LIMIT;
     vd inv4lkt = vsplat(row->inv4lkt), lim = vsplat(LIN_LIMIT), one = vsplat(1.0);
-    vd A[GROUPS], Ai[GROUPS], up[GROUPS], dn[GROUPS], ap[GROUPS], d[GROUPS];
+    vd A[GROUPS], Ai[GROUPS], up[GROUPS], dn[GROUPS], ap[GROUPS], d[GROUPS], z[GROUPS];
+    vu nonfinite = usplat(0); /* the bits of every group's z, ORed */
     long g0[GROUPS], gmin[GROUPS], gmax[GROUPS]; /* walk starts: lane 0's, the lanes' range */
     double lw0 = ln_w(m, 0);
     /* the row's and mode's constants, read once (the stores into o, vectors
@@ -1221,11 +1222,16 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
             ka = lnp + assisted;
             kt = lnp + total;
         }
-        /* finite (NaN and +-inf give NaN); summed as a tree, so that the
-         * logs are not followed by a chain of seven additions */
+        /* sum - sum is 0 where the eight are finite, NaN elsewhere (NaN
+         * and +-inf give NaN); the sum as a tree, so that the logs are not
+         * followed by a chain of seven additions.  Its bits are ORed over
+         * the groups, and the lanes are looked at (below the loop) only
+         * when they are not all 0 */
         sum = ((o[j].bare + o[j].elastic) + (assisted + total)) + ((kb + ke) + (ka + kt));
-        fin[j] = lane_bits(sum - sum == vsplat(0.0));
-        rest += !(dst && j < nfull) || mask[j] != 0 || fin[j] != ALL_LANES;
+        z[j] = sum - sum;
+        nonfinite |= (vu)z[j];
+        fin[j] = ALL_LANES;
+        rest += !(dst && j < nfull) || mask[j] != 0;
         if (dst && j < nfull) { /* a whole group of a run: straight into its arrays */
             size_t at = i0 + (size_t)(LANES * j);
             memcpy(dst->ln_k_elastic + at, &ke, sizeof(vd));
@@ -1245,6 +1251,13 @@ static VG_LANES_CLONES int win_run(vg_rate_mode *m, vg_rate_row *row, int ng, co
             o[j].k_elastic = ke;
             o[j].k_assisted = ka;
             o[j].k_total = kt;
+        }
+    }
+    if ((nonfinite[0] | nonfinite[1] | nonfinite[2] | nonfinite[3]) != 0) {
+        rest = 0;
+        for (int j = 0; j < ng; j++) {
+            fin[j] = lane_bits(z[j] == vsplat(0.0));
+            rest += !(dst && j < nfull) || mask[j] != 0 || fin[j] != ALL_LANES;
         }
     }
     return rest;
