@@ -49,14 +49,13 @@ endif
 # own.  tests/scripts/lanes.sh compares its output with the normal build's
 # bit for bit; tests/scripts/valgrind.sh memchecks it (valgrind 3.19 does
 # not decode every AVX2 instruction GCC emits).
+# The AVX2 build (AVX2=1): the lanes' AVX2 and baseline versions only (no
+# x86-64-v4 one), so that tests/scripts/lanes.sh can compare the AVX2
+# version with the baseline build on a CPU with AVX-512 too.
 ifeq ($(BASELINE)$(MPI),10)
 LANEFLAGS := -DVG_NO_CLONES
 B         := build-base
-endif
-# The AVX2 build: the lanes' AVX2 and baseline versions only (no x86-64-v4
-# one), so that tests/scripts/lanes.sh can compare the AVX2 version with the
-# baseline build on a CPU with AVX-512 too.
-ifeq ($(AVX2)$(BASELINE)$(MPI),10)
+else ifeq ($(AVX2)$(MPI),10)
 LANEFLAGS := -DVG_NO_V4_CLONE
 B         := build-avx2
 endif
