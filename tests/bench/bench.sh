@@ -8,6 +8,10 @@
 #           the peak memory, all in one process; against
 #           tests/bench/numpy_sweep.py, the same grid written by hand in
 #           NumPy (timed on a 10^6-point sub-grid, checked against the tool).
+#   memory: tests/bench/memory.ini, the whole vibrogate sweep command (NetCDF,
+#           one metric, checkpoint) on 10^6, 10^7 and 10^8 points, its wall
+#           time and peak resident memory (tests/bench/peak_rss.py); skipped
+#           when the temporary directory has less than 2 GiB free.
 #   render: the 500 x 500 grid in 4 x 4 panels of tests/bench/render.ini,
 #           drawn from its saved sweep.nc; reported as cells per second and
 #           as a ratio against computing the same grid in the same run.
@@ -28,6 +32,7 @@ val() { awk -v k="$1" '$1 == k { print $2 }' "$2"; }
 "$B/bench/bench_sweep" >"$T/tool"
 "$B/bench/bench_sweep" --rss 2 >"$T/rss-small"
 "$B/bench/bench_sweep" --rss 20 >"$T/rss-full"
+"$B/bench/bench_sweep" --rss 200 >"$T/rss-huge"
 VG_BUILD="$B" "$PY" tests/bench/numpy_sweep.py >"$T/numpy" || true
 r1=$(val pts_per_s_1 "$T/tool")
 rn=$(val pts_per_s_n "$T/tool")
@@ -59,9 +64,11 @@ printf '  %-40s %12.2f  (runs %.2f to %.2f)\n' "cost of a kernel point, in exp()
 printf '  %-40s %12.2f  (runs %.2f to %.2f)\n' "cost of a sweep point, in exp() calls" \
     "$(val sweep_exp_per_point "$T/tool")" "$(val sweep_exp_per_point_lo "$T/tool")" \
     "$(val sweep_exp_per_point_hi "$T/tool")"
-printf '  %-40s %9s KiB for %s points, %s KiB for %s\n' "peak RSS, $n threads" \
+printf '  %-40s %9s KiB for %s points, %s KiB for %s, %s KiB for %s\n' \
+    "peak RSS, $n threads (engine)" \
     "$(val rss_peak_kib "$T/rss-small")" "$(val rss_points "$T/rss-small")" \
-    "$(val rss_peak_kib "$T/rss-full")" "$(val rss_points "$T/rss-full")"
+    "$(val rss_peak_kib "$T/rss-full")" "$(val rss_points "$T/rss-full")" \
+    "$(val rss_peak_kib "$T/rss-huge")" "$(val rss_points "$T/rss-huge")"
 printf '  %-40s %12s  (%s points, 1 vs %s threads)\n' "output identical at any thread count" \
     "$(val identical "$T/tool")" "$(val identical_points "$T/tool")" "$n"
 sed -n 's/^agreement: /  NumPy vs tool: /p' "$T/numpy"
@@ -94,6 +101,26 @@ printf '  %-40s %12.4g points/s
 printf '  %-40s %12.4g points/s  (speedup %.3f)
 ' "tool, $n threads" "$(calc "$mmpts / $mmn")" \
     "$(calc "$mm1 / $mmn")"
+
+# --------------------------------------------------------------- memory ---
+# The whole command, writers and checkpoint included: 10^8 points need
+# 0.6 GB of sweep.nc and 0.8 GB of checkpoint while they run.
+free_kib=$(df -Pk "$T" | awk 'NR == 2 { print $4 }')
+printf 'memory benchmark: vibrogate sweep of tests/bench/memory.ini (NetCDF, one metric), %s threads\n' \
+    "$(nproc)"
+if [ "${free_kib:-0}" -lt 2097152 ]; then
+    printf '  skipped: less than 2 GiB free in %s\n' "$T"
+else
+    for ns in 2 20 200; do
+        rm -rf "$T/mem"
+        "$PY" tests/bench/peak_rss.py "$VG" sweep tests/bench/memory.ini --out "$T/mem" --quiet \
+            --set "parameters.huang_rhys=0.01 .. 1, $ns points, log" >"$T/mem.out"
+        printf '  %-40s %9s KiB peak RSS  %8.2f s  (sweep.nc %s)\n' "$((ns * 500000)) points" \
+            "$(val peak_kib "$T/mem.out")" "$(val secs "$T/mem.out")" \
+            "$(du -h "$T/mem/sweep.nc" | cut -f1)"
+    done
+    rm -rf "$T/mem"
+fi
 
 # --------------------------------------------------------------- render ---
 t0=$(now)
