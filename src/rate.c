@@ -1378,10 +1378,10 @@ static inline void run_lanes(vg_rates_run *r, size_t i0, const lanes_out *o, int
  * the group, goes lane by lane, its gap in every lane of a group.  Lanes
  * are independent, so a lane's results are the same in any group. */
 static void lanes_again(vg_rate_mode *m, vg_rate_row *row, const double *gj, int nj, int reach,
-                        double tol, lanes_out *oa, int *ma, int *fa, int *ra, int *ga_of,
-                        int *la_of)
+                        double tol, lanes_out *oa, int *ma, int *fa, int *ga_of, int *la_of)
 {
     double ga[(2 + LANES) * LANES];
+    int ra[2 + LANES]; /* win_run's reach of these groups, not needed here */
     int all = (1 << nj) - 1, left = all, n1 = 0;
 
     reach &= all;
@@ -1428,7 +1428,7 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
                           size_t *done, vg_error *err)
 {
     lanes_out o[GROUPS], oa[2 + LANES];
-    int mask[GROUPS], ma[2 + LANES], fin[GROUPS], fa[2 + LANES], reach[GROUPS], ra[2 + LANES];
+    int mask[GROUPS], ma[2 + LANES], fin[GROUPS], fa[2 + LANES], reach[GROUPS];
     int ga_of[LANES], la_of[LANES]; /* a lane taken again: its group in oa and lane there */
     int cz = row->coupling == 0.0, az = m->S == 0.0;
     int nfull = run ? nl / LANES : 0; /* groups win_run stores in the arrays itself */
@@ -1444,7 +1444,7 @@ static vg_status eval_run(vg_rate_mode *m, vg_rate_row *row, const double *g, in
             continue;
         }
         if (mask[j] == LANES_ALONE)
-            lanes_again(m, row, g + j * LANES, nj, reach[j], tol, oa, ma, fa, ra, ga_of, la_of);
+            lanes_again(m, row, g + j * LANES, nj, reach[j], tol, oa, ma, fa, ga_of, la_of);
         for (int l = 0; l < nj; l++) {
             int i = j * LANES + l, log_path, finite;
             vg_rates rec, *r = run ? &rec : &out[i];
